@@ -1,0 +1,4 @@
+export * from "./errors.js";
+export * from "./frame.js";
+export * from "./random.js";
+export * from "./task.js";

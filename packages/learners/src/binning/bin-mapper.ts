@@ -1,0 +1,180 @@
+import { MISSING_CODE, type Rng, type TableView } from "@nightshift/core";
+
+/**
+ * Per-feature quantile binning shared by every tree family (Ke et al. 2017 histogram
+ * method; at most 255 value bins plus one reserved bin for missing values, so a bin
+ * fits in a byte). The mapper is fitted on training rows only and then applied to
+ * any rows, so no information from predicted rows reaches the fit.
+ */
+export const MISSING_BIN = 255;
+export const MAX_VALUE_BINS = 255;
+
+/** Numeric feature: value v falls in the first bin b with v <= upperEdges[b]; the last edge is +Infinity. */
+export interface NumericBins {
+  readonly kind: "numeric";
+  readonly upperEdges: Float64Array;
+}
+
+/**
+ * Categorical feature: each category seen in training (up to 254 most frequent) gets a bin;
+ * unseen and rare categories share the missing bin.
+ */
+export interface CategoricalBins {
+  readonly kind: "categorical";
+  /** bin per category code (index = code), MISSING_BIN when the code has no bin. */
+  readonly binOfCode: Int32Array;
+  readonly binCount: number;
+}
+
+export type FeatureBins = NumericBins | CategoricalBins;
+
+export interface BinMapper {
+  readonly features: readonly FeatureBins[];
+}
+
+/** Bins of the rows of a view, one byte per (feature, row), column-major. */
+export interface BinnedMatrix {
+  readonly rowCount: number;
+  /** bins[f][r] = bin of view row r on feature f. */
+  readonly bins: readonly Uint8Array[];
+  /** Number of value bins per feature (missing bin excluded). 1 means constant: never split. */
+  readonly binCounts: Uint16Array;
+  /** Whether feature f is categorical (splits are category sets rather than thresholds). */
+  readonly categorical: readonly boolean[];
+}
+
+/** Rows used to place numeric edges; more adds time and barely moves quantiles. */
+const EDGE_SAMPLE_ROWS = 200_000;
+
+export function binCount(bins: FeatureBins): number {
+  return bins.kind === "numeric" ? bins.upperEdges.length : bins.binCount;
+}
+
+export function fitBinMapper(view: TableView, maxBins: number = MAX_VALUE_BINS, rng?: Rng): BinMapper {
+  if (!(maxBins >= 2 && maxBins <= MAX_VALUE_BINS)) throw new RangeError(`maxBins must be in [2, ${MAX_VALUE_BINS}]`);
+  let rows = view.rows;
+  if (rng && rows.length > EDGE_SAMPLE_ROWS) {
+    const picked = new Uint32Array(EDGE_SAMPLE_ROWS);
+    for (let i = 0; i < EDGE_SAMPLE_ROWS; i++) picked[i] = rows[rng.int(rows.length)];
+    rows = picked;
+  }
+  const features = view.columns.map((column): FeatureBins => {
+    if (column.kind === "categorical") return fitCategoricalBins(column.codes, column.vocabulary.length, view.rows, maxBins);
+    return { kind: "numeric", upperEdges: numericEdges(column.values, rows, maxBins) };
+  });
+  return { features };
+}
+
+function numericEdges(values: Float32Array | Float64Array, rows: Uint32Array, maxBins: number): Float64Array {
+  const present = new Float64Array(rows.length);
+  let m = 0;
+  for (let i = 0; i < rows.length; i++) {
+    const v = values[rows[i]];
+    if (!Number.isNaN(v)) present[m++] = v;
+  }
+  const sorted = present.subarray(0, m).sort();
+  const distinct: number[] = [];
+  for (let i = 0; i < m; i++) if (i === 0 || sorted[i] !== sorted[i - 1]) distinct.push(sorted[i]);
+  const edges: number[] = [];
+  if (distinct.length <= maxBins) {
+    // One bin per distinct value; cut half-way between neighbours.
+    for (let i = 0; i + 1 < distinct.length; i++) edges.push((distinct[i] + distinct[i + 1]) / 2);
+  } else {
+    // Quantile cuts over the sorted (not distinct) values, then half-way to the next distinct value.
+    let previous = -Infinity;
+    for (let b = 1; b < maxBins; b++) {
+      const q = sorted[Math.floor((b * m) / maxBins)];
+      if (q <= previous) continue;
+      const next = nextLarger(sorted, q);
+      if (next === undefined) break;
+      const edge = (q + next) / 2;
+      if (edge > previous) edges.push(edge);
+      previous = next;
+    }
+  }
+  edges.push(Infinity);
+  return Float64Array.from(edges);
+}
+
+function nextLarger(sorted: Float64Array, value: number): number | undefined {
+  let lo = 0;
+  let hi = sorted.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (sorted[mid] <= value) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo < sorted.length ? sorted[lo] : undefined;
+}
+
+function fitCategoricalBins(codes: Int32Array, vocabularySize: number, rows: Uint32Array, maxBins: number): CategoricalBins {
+  const counts = new Float64Array(vocabularySize);
+  for (let i = 0; i < rows.length; i++) {
+    const code = codes[rows[i]];
+    if (code !== MISSING_CODE && code < vocabularySize) counts[code]++;
+  }
+  const seen: number[] = [];
+  for (let code = 0; code < vocabularySize; code++) if (counts[code] > 0) seen.push(code);
+  // Keep the most frequent categories (ties by code); bins are assigned in code order.
+  const kept = seen.length <= maxBins - 1 ? seen : [...seen].sort((a, b) => counts[b] - counts[a] || a - b).slice(0, maxBins - 1).sort((a, b) => a - b);
+  const binOfCode = new Int32Array(vocabularySize).fill(MISSING_BIN);
+  kept.forEach((code, bin) => (binOfCode[code] = bin));
+  return { kind: "categorical", binOfCode, binCount: Math.max(1, kept.length) };
+}
+
+/** Bin of one value of a numeric feature. */
+export function numericBin(upperEdges: Float64Array, value: number): number {
+  if (Number.isNaN(value)) return MISSING_BIN;
+  let lo = 0;
+  let hi = upperEdges.length - 1;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (value <= upperEdges[mid]) hi = mid;
+    else lo = mid + 1;
+  }
+  return lo;
+}
+
+/** Applies a fitted mapper to the rows of a view (training rows or rows to predict). */
+export function binRows(mapper: BinMapper, view: TableView): BinnedMatrix {
+  const n = view.rows.length;
+  const bins = mapper.features.map((feature, f) => {
+    const column = view.columns[f];
+    const out = new Uint8Array(n);
+    if (feature.kind === "numeric") {
+      if (column.kind === "categorical") throw new TypeError(`feature ${column.name}: fitted as numeric, given categorical`);
+      const values = column.values;
+      for (let r = 0; r < n; r++) out[r] = numericBin(feature.upperEdges, values[view.rows[r]]);
+    } else {
+      if (column.kind !== "categorical") throw new TypeError(`feature ${column.name}: fitted as categorical, given numeric`);
+      const codes = column.codes;
+      const size = feature.binOfCode.length;
+      for (let r = 0; r < n; r++) {
+        const code = codes[view.rows[r]];
+        out[r] = code >= 0 && code < size ? feature.binOfCode[code] : MISSING_BIN;
+      }
+    }
+    return out;
+  });
+  const binCounts = Uint16Array.from(mapper.features, binCount);
+  return { rowCount: n, bins, binCounts, categorical: mapper.features.map((f) => f.kind === "categorical") };
+}
+
+/** JSON form of a mapper (edges as number arrays; +Infinity written as null). */
+export function binMapperToJSON(mapper: BinMapper): unknown {
+  return mapper.features.map((f) =>
+    f.kind === "numeric"
+      ? { kind: "numeric", upperEdges: Array.from(f.upperEdges, (e) => (Number.isFinite(e) ? e : null)) }
+      : { kind: "categorical", binOfCode: Array.from(f.binOfCode), binCount: f.binCount },
+  );
+}
+
+export function binMapperFromJSON(json: unknown): BinMapper {
+  const features = (json as Array<{ kind: string; upperEdges?: Array<number | null>; binOfCode?: number[]; binCount?: number }>).map(
+    (f): FeatureBins =>
+      f.kind === "numeric"
+        ? { kind: "numeric", upperEdges: Float64Array.from(f.upperEdges ?? [], (e) => (e === null ? Infinity : e)) }
+        : { kind: "categorical", binOfCode: Int32Array.from(f.binOfCode ?? []), binCount: f.binCount ?? 1 },
+  );
+  return { features };
+}

@@ -1,0 +1,2 @@
+export * from "./learner.js";
+export * from "./binning/bin-mapper.js";
