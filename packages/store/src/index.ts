@@ -1,1 +1,1 @@
-export {};
+export * from "./run-store.js";
