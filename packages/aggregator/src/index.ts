@@ -1,1 +1,3 @@
-export {};
+export * from "./board.js";
+export * from "./corrected-t-test.js";
+export * from "./leaderboard.js";

@@ -1,4 +1,5 @@
 import { isInputError } from "@nightshift/core";
+import "./commands-list.js";
 import { runCli } from "./commands.js";
 
 runCli(process.argv.slice(2)).then(

@@ -1,1 +1,6 @@
-export {};
+export * from "./fold-context.js";
+export * from "./fold-job.js";
+export type { ThreadSetup } from "./thread-entry.js";
+
+/** Path of the worker-thread task module, for the local pool. */
+export const THREAD_ENTRY = new URL("./thread-entry.js", import.meta.url);

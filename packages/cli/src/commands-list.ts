@@ -1,0 +1,7 @@
+import { registerVerb } from "./commands.js";
+import { boardVerb } from "./verbs/board.js";
+import { demoVerb } from "./verbs/demo.js";
+import { initVerb } from "./verbs/init.js";
+import { runVerb } from "./verbs/run.js";
+
+for (const verb of [demoVerb, initVerb, runVerb, boardVerb]) registerVerb(verb);

@@ -1,0 +1,115 @@
+import { buildBoard } from "@nightshift/aggregator";
+import { runSearch } from "@nightshift/coordinator";
+import { InputError } from "@nightshift/core";
+import { RunStore } from "@nightshift/store";
+import { parseVerbArgs, positiveInteger } from "../args.js";
+import { formatBoard } from "../board-table.js";
+import type { Verb } from "../commands.js";
+import { createProgressBar } from "../progress.js";
+
+export interface RunVerbOptions {
+  readonly planPath: string;
+  readonly runDir?: string;
+  readonly runsDir?: string;
+  readonly workers?: number;
+  readonly json: boolean;
+  readonly quiet: boolean;
+  readonly trials?: number;
+  readonly top?: number;
+}
+
+/** Runs a plan with a progress bar and Ctrl-C handling, then prints the board. Shared by `run` and `demo`. */
+export async function runAndReport(options: RunVerbOptions): Promise<number> {
+  const live = !options.json && !options.quiet;
+  let stopping = false;
+  let runDir = options.runDir ?? "";
+  let planName = options.planPath;
+  const onSigint = (): void => {
+    if (stopping) {
+      process.stderr.write("\nnightshift: stopped at once; jobs in flight are lost and will be redone on resume.\n");
+      process.exit(130);
+    }
+    stopping = true;
+    process.stderr.write(`\nnightshift: stopping after the jobs in flight (Ctrl-C again to stop at once). Resume with: nightshift run ${planName} --run-dir ${runDir}\n`);
+  };
+  process.on("SIGINT", onSigint);
+  process.on("SIGTERM", onSigint);
+  let bar: ReturnType<typeof createProgressBar> | undefined;
+  try {
+    const result = await runSearch({
+      planPath: options.planPath,
+      runDir: options.runDir,
+      runsDir: options.runsDir,
+      workers: options.workers,
+      trials: options.trials,
+      shouldStop: () => stopping,
+      onStart: (info) => {
+        runDir = info.runDir;
+        planName = options.planPath;
+        if (live) {
+          process.stderr.write(
+            `nightshift: ${info.resumed ? "resuming" : "starting"} run ${info.runId} in ${info.runDir}: ${info.trials} trials × ${info.folds} folds on ${info.rows} training rows\n`,
+          );
+          bar = createProgressBar("");
+        }
+      },
+      onProgress: (p) => bar?.update(p),
+    });
+    bar?.stop();
+    const store = RunStore.open(result.runDir, { readonly: true });
+    try {
+      const board = buildBoard(store, { top: options.top });
+      if (options.json) console.log(JSON.stringify(board, null, 2));
+      else {
+        if (!options.quiet) console.log(formatBoard(board));
+        if (!result.completed)
+          console.error(
+            result.stoppedBy === "time_budget"
+              ? `nightshift: the time budget ran out; to go on: nightshift run ${options.planPath} --run-dir ${result.runDir}`
+              : `nightshift: stopped; resume with: nightshift run ${options.planPath} --run-dir ${result.runDir}`,
+          );
+      }
+      const allFailed = board.rows.length > 0 && board.rows.every((r) => r.status === "failed" || r.status === "timed_out");
+      if (allFailed) console.error("nightshift: every trial failed; see the messages on the board (nightshift board " + result.runDir + ")");
+    } finally {
+      store.close();
+    }
+    return result.completed ? 0 : 130;
+  } finally {
+    bar?.stop();
+    process.off("SIGINT", onSigint);
+    process.off("SIGTERM", onSigint);
+  }
+}
+
+export const runVerb: Verb = {
+  name: "run",
+  usage: "run <plan.yaml> [--run-dir DIR] [--workers N] [--json] [--quiet]",
+  summary: "run (or resume) a plan's search on local worker threads",
+  async run(args) {
+    const { values, positionals } = parseVerbArgs(
+      "run",
+      args,
+      {
+        "run-dir": { type: "string" },
+        runs: { type: "string" },
+        workers: { type: "string" },
+        redis: { type: "string" },
+        json: { type: "boolean", default: false },
+        quiet: { type: "boolean", default: false },
+        top: { type: "string" },
+      },
+      { min: 1, max: 1, names: "one plan file: nightshift run <plan.yaml>" },
+    );
+    if (values.redis !== undefined) throw new InputError("nightshift run --redis", "distributed mode is not built yet; run without --redis to use local worker threads");
+    return runAndReport({
+      planPath: positionals[0],
+      runDir: values["run-dir"],
+      runsDir: values.runs,
+      workers: positiveInteger("run", "workers", values.workers),
+      json: values.json ?? false,
+      quiet: values.quiet ?? false,
+      top: positiveInteger("run", "top", values.top),
+    });
+  },
+};

@@ -1,0 +1,53 @@
+import { type ChildProcess, spawn, spawnSync } from "node:child_process";
+import { mkdtempSync, writeFileSync } from "node:fs";
+import { tmpdir } from "node:os";
+import { join, resolve } from "node:path";
+import { stringify } from "csv-stringify/sync";
+import { generateTurbineRows, TURBINE_COLUMNS } from "../../packages/cli/src/demo/turbine-data.js";
+
+export const CLI = resolve(__dirname, "../../packages/cli/bin/nightshift.js");
+
+export function tempDir(prefix: string): string {
+  return mkdtempSync(join(tmpdir(), `nightshift-${prefix}-`));
+}
+
+/** A small turbine set (invented demo data) for end-to-end runs. */
+export function writeSmallTurbines(dir: string, turbines = 60, weeks = 20): string {
+  const path = join(dir, "turbines.csv");
+  writeFileSync(path, stringify(generateTurbineRows({ turbines, weeks, seed: 11 }), { header: true, columns: [...TURBINE_COLUMNS] }));
+  return path;
+}
+
+export const SMALL_FAMILIES = `families:
+  logistic: { l2: { log_uniform: [1.0e-3, 10] } }
+  tree: { depth: { int: [2, 6] } }
+  forest: { trees: { int: [5, 15] }, depth: { choice: [4, 8] } }
+  boosted: { rounds: { int: [10, 30] }, learning_rate: 0.2, leaves: 8, min_leaf: 5 }
+  knn: { k: { int: [3, 15] } }
+`;
+
+export function writePlan(dir: string, body: string, name = "e2e.plan.yaml"): string {
+  const path = join(dir, name);
+  writeFileSync(path, body);
+  return path;
+}
+
+export interface CliResult {
+  readonly code: number | null;
+  readonly stdout: string;
+  readonly stderr: string;
+}
+
+export function nightshift(args: string[], cwd: string): CliResult {
+  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: "utf8", env: { ...process.env, NO_COLOR: "1" } });
+  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
+}
+
+export function nightshiftAsync(args: string[], cwd: string): ChildProcess {
+  return spawn(process.execPath, [CLI, ...args], { cwd, stdio: ["ignore", "pipe", "pipe"] });
+}
+
+/** The board JSON without what legitimately differs between runs (timings). */
+export function withoutTimings(board: { rows: Array<Record<string, unknown>> }): unknown {
+  return { ...board, rows: board.rows.map(({ fit_s: _f, predict_s: _p, ...rest }) => rest) };
+}
