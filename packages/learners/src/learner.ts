@@ -1,9 +1,20 @@
 import type { Rng, TableView, TrainView } from "@nightshift/core";
 import type { z } from "zod";
 
-/** The families a plan can name (DESIGN.md). `logistic` fits ridge (`linear`) on regression tasks. */
-export const FAMILY_NAMES = ["logistic", "tree", "forest", "extra_trees", "boosted", "knn"] as const;
-export type FamilyName = (typeof FAMILY_NAMES)[number];
+import type { FamilyName } from "@nightshift/core";
+
+export { FAMILY_NAMES, type FamilyName } from "@nightshift/core";
+
+/**
+ * What the runner offers a fit beyond its data: a memo shared by the fits of one worker,
+ * where fold-specific preprocessing (bins, scaling) fitted on the same training rows is
+ * kept and reused. `key` names the training rows (e.g. the fold), so memo keys are
+ * `${key}:...`. A learner that finds nothing there computes it, exactly as it would without.
+ */
+export interface FitContext {
+  readonly memo: Map<string, unknown>;
+  readonly key: string;
+}
 
 /**
  * A JSON-safe fitted model: plain objects, arrays, numbers, strings, booleans, null.
@@ -22,7 +33,7 @@ export interface Learner<Params, Model> {
   readonly family: FamilyName;
   /** Validates and fills defaults; unknown keys are errors. */
   readonly params: z.ZodType<Params>;
-  fit(view: TrainView, params: Params, rng: Rng): Model;
+  fit(view: TrainView, params: Params, rng: Rng, context?: FitContext): Model;
   predict(model: Model, view: TableView): Float64Array;
   toJSON(model: Model): ModelJson;
   fromJSON(json: ModelJson): Model;

@@ -1,4 +1,5 @@
-import { MISSING_CODE, type Rng, type TableView } from "@nightshift/core";
+import { createRng, MISSING_CODE, type Rng, type TableView } from "@nightshift/core";
+import type { FitContext } from "../learner.js";
 
 /**
  * Per-feature quantile binning shared by every tree family (Ke et al. 2017 histogram
@@ -53,9 +54,11 @@ export function binCount(bins: FeatureBins): number {
 export function fitBinMapper(view: TableView, maxBins: number = MAX_VALUE_BINS, rng?: Rng): BinMapper {
   if (!(maxBins >= 2 && maxBins <= MAX_VALUE_BINS)) throw new RangeError(`maxBins must be in [2, ${MAX_VALUE_BINS}]`);
   let rows = view.rows;
-  if (rng && rows.length > EDGE_SAMPLE_ROWS) {
+  if (rows.length > EDGE_SAMPLE_ROWS) {
+    // A stream of its own unless given one, so binning never shifts a caller's random draws.
+    const sampler = rng ?? createRng("bin-edge-sample", rows.length);
     const picked = new Uint32Array(EDGE_SAMPLE_ROWS);
-    for (let i = 0; i < EDGE_SAMPLE_ROWS; i++) picked[i] = rows[rng.int(rows.length)];
+    for (let i = 0; i < EDGE_SAMPLE_ROWS; i++) picked[i] = rows[sampler.int(rows.length)];
     rows = picked;
   }
   const features = view.columns.map((column): FeatureBins => {
@@ -177,4 +180,23 @@ export function binMapperFromJSON(json: unknown): BinMapper {
         : { kind: "categorical", binOfCode: Int32Array.from(f.binOfCode ?? []), binCount: f.binCount ?? 1 },
   );
   return { features };
+}
+
+/**
+ * The binned training rows of a fit, reused across fits on the same training rows (same
+ * fold) when the runner offers a memo: bins depend on the rows and the bin count only.
+ */
+export function binTrainingRows(view: TableView, maxBins: number = MAX_VALUE_BINS, context?: FitContext): { mapper: BinMapper; binned: BinnedMatrix } {
+  const compute = (): { mapper: BinMapper; binned: BinnedMatrix } => {
+    const mapper = fitBinMapper(view, maxBins);
+    return { mapper, binned: binRows(mapper, view) };
+  };
+  if (!context) return compute();
+  const key = `${context.key}:bins:${maxBins}:${view.rows.length}`;
+  let entry = context.memo.get(key) as { mapper: BinMapper; binned: BinnedMatrix } | undefined;
+  if (!entry) {
+    entry = compute();
+    context.memo.set(key, entry);
+  }
+  return entry;
 }
