@@ -1,0 +1,125 @@
+import { createReadStream } from "node:fs";
+import { open } from "node:fs/promises";
+import { pipeline } from "node:stream/promises";
+import { parse as parseStream, type Options as ParseOptions } from "csv-parse";
+import { parse as parseSync } from "csv-parse/sync";
+import { InputError } from "../errors.js";
+import type { Dataset, DatasetContent } from "../dataset/dataset.js";
+import { fingerprintContent } from "../dataset/fingerprint.js";
+import { csvInputError, type ParsePosition } from "./csv-errors.js";
+import { holdsHeaderLine, sniffDelimiter, type Delimiter } from "./sniff-delimiter.js";
+import { TableBuilder, type IngestOptions, type RecordContext } from "./table-builder.js";
+
+export type { IngestOptions } from "./table-builder.js";
+
+/**
+ * Reads a training CSV file into typed columns. The file is streamed through csv-parse
+ * and every field is converted into its column's typed chunks as it arrives, so memory
+ * holds the typed data, not the text. Types are inferred in that same pass (see
+ * infer-types.ts); only a column that turns categorical after over a thousand distinct
+ * numbers costs a second pass over the file.
+ */
+export async function readCsvDataset(path: string, options: IngestOptions): Promise<Dataset> {
+  const delimiter = await sniffFile(path);
+  const table = new TableBuilder(path, options);
+  await streamRecords(path, delimiter, table, table.onRecord);
+  const lost = table.lostColumns();
+  if (lost.length > 0) {
+    const reread = new TableBuilder(path, options, new Set(lost));
+    await streamRecords(path, delimiter, reread, reread.onRecord);
+    table.adoptRereads(reread);
+  }
+  return withFingerprint(table.finish());
+}
+
+/** The same as readCsvDataset, for CSV text already in memory (small inputs, tests). */
+export function parseCsvDataset(text: string, source: string, options: IngestOptions): Dataset {
+  if (text.length === 0) throw new InputError(source, "the file is empty");
+  const delimiter = sniffDelimiter(text);
+  const table = new TableBuilder(source, options);
+  parseRecords(text, source, delimiter, table, table.onRecord);
+  const lost = table.lostColumns();
+  if (lost.length > 0) {
+    const reread = new TableBuilder(source, options, new Set(lost));
+    parseRecords(text, source, delimiter, reread, reread.onRecord);
+    table.adoptRereads(reread);
+  }
+  return withFingerprint(table.finish());
+}
+
+function withFingerprint(content: DatasetContent): Dataset {
+  return { ...content, fingerprint: fingerprintContent(content) };
+}
+
+/** One record handler, called with the parser's context; returns null so no records are kept. */
+export type RecordHandler = (record: string[], context: RecordContext) => null;
+
+/**
+ * csv-parse settings shared by every reader: a header line is required (it is the first
+ * record), quotes are RFC 4180 double quotes, line ends (LF, CRLF, CR) are detected, a UTF-8
+ * byte-order mark is dropped, blank lines are skipped, and rows must have as many fields as
+ * the header. Records go to `on_record`, which keeps nothing, so no array of rows builds up.
+ */
+export function parserOptions(delimiter: Delimiter, onRecord: RecordHandler): ParseOptions {
+  return {
+    delimiter,
+    bom: true,
+    skip_empty_lines: true,
+    relax_column_count: false,
+    cast: false,
+    on_record: onRecord,
+  };
+}
+
+/** Streams a file's records into `onRecord`, translating parser failures into InputError. */
+export async function streamRecords(path: string, delimiter: Delimiter, position: ParsePosition, onRecord: RecordHandler): Promise<void> {
+  const parser = parseStream(parserOptions(delimiter, onRecord));
+  // Nothing is pushed downstream (on_record returns null); flowing mode lets the parser end.
+  parser.resume();
+  try {
+    await pipeline(createReadStream(path, { highWaterMark: 1 << 20 }), parser);
+  } catch (error) {
+    throw csvInputError(error, path, position);
+  }
+}
+
+/** Parses CSV text's records into `onRecord`, translating parser failures into InputError. */
+export function parseRecords(text: string, source: string, delimiter: Delimiter, position: ParsePosition, onRecord: RecordHandler): void {
+  try {
+    parseSync(text, parserOptions(delimiter, onRecord));
+  } catch (error) {
+    throw csvInputError(error, source, position);
+  }
+}
+
+/**
+ * The delimiter of a file, sniffed from its header line: reads from the start until the
+ * first line end outside quotes (or the end of the file).
+ */
+export async function sniffFile(path: string): Promise<Delimiter> {
+  let handle;
+  try {
+    handle = await open(path, "r");
+  } catch (error) {
+    throw csvInputError(error, path, { headerFields: 0, lastLine: 0 });
+  }
+  try {
+    const chunk = Buffer.alloc(1 << 16);
+    let text = "";
+    let total = 0;
+    for (;;) {
+      const { bytesRead } = await handle.read(chunk, 0, chunk.length, total);
+      if (bytesRead === 0) break;
+      total += bytesRead;
+      text += chunk.toString("utf8", 0, bytesRead);
+      // A header longer than 1 MB is not a header; sniff what has been read.
+      if (holdsHeaderLine(text) || total >= 1 << 20) break;
+    }
+    if (total === 0) throw new InputError(path, "the file is empty");
+    return sniffDelimiter(text);
+  } catch (error) {
+    throw csvInputError(error, path, { headerFields: 0, lastLine: 0 });
+  } finally {
+    await handle.close();
+  }
+}
