@@ -39,7 +39,6 @@ export class TableBuilder implements ParsePosition {
   headerFields = 0;
   lastLine = 0;
   rows = 0;
-  private names: string[] = [];
   /** Builders of the columns read, and the field index of each. */
   private builders: ColumnBuilder[] = [];
   private fieldIndex = new Int32Array(0);
@@ -114,23 +113,22 @@ export class TableBuilder implements ParsePosition {
       }
       seen.set(name, i);
     });
-    this.names = names;
     this.headerFields = record.length;
     const options = this.options;
     const where = `${this.source}:${line}`;
     const mustExist = (name: string, role: string): void => {
       if (!seen.has(name)) {
-        throw new InputError(where, `${role} ${JSON.stringify(name)} is not a column of the file; the columns are ${listNames(names, 50)}`);
+        throw new InputError(where, `${role} ${JSON.stringify(name)}, which is not a column of the file; the columns are ${listNames(names, 50)}`);
       }
     };
-    mustExist(options.target, "the target column");
+    mustExist(options.target, "the target is");
     const ignored = new Set(options.ignore ?? []);
-    for (const name of ignored) mustExist(name, "ignore lists");
+    for (const name of ignored) mustExist(name, "ignore names");
     const categorical = new Set(options.categorical ?? []);
-    for (const name of categorical) mustExist(name, "categorical lists");
+    for (const name of categorical) mustExist(name, "categorical names");
     if (ignored.has(options.target)) throw new InputError(where, `the target column ${JSON.stringify(options.target)} is also listed in ignore`);
     if (options.group !== undefined) {
-      mustExist(options.group, "the group column");
+      mustExist(options.group, "the group column is");
       if (options.group === options.target) throw new InputError(where, "the group column cannot be the target column");
       if (ignored.has(options.group)) throw new InputError(where, `the group column ${JSON.stringify(options.group)} is also listed in ignore`);
     }
