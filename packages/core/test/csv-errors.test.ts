@@ -75,6 +75,15 @@ describe("bad CSV input gives one InputError naming file and line", () => {
     expect(error.message).toMatch(/data\.csv:4: column "y": the target of a regression must be numeric, found "n\/a"/);
   });
 
+  it("the line of a bad value after records that span several lines", async () => {
+    const rows = ["note,y"];
+    for (let i = 0; i < 3000; i++) rows.push(i % 3 === 0 ? `"two\nlines",${i}.5` : `one,${i}.5`);
+    rows.push("last,oops");
+    // 1 header line, 1000 records of two lines, 2000 of one line: the bad record is on line 4002.
+    const error = await fileError(`${rows.join("\n")}\n`, { target: "y", task: "regression" }, "multiline.csv");
+    expect(error.message).toMatch(/multiline\.csv:4002: column "y": the target of a regression must be numeric, found "oops"/);
+  });
+
   it("a group column with a single group", async () => {
     const error = await fileError("site,a,y\nX,1,0\nX,2,1\n", { target: "y", group: "site" });
     expect(error.message).toMatch(/data\.csv: column "site": the group column has a single group \("X"\)/);

@@ -51,10 +51,12 @@ export class ColumnBuilder {
   readonly vocabulary: string[] = [];
   /** First spelling of each distinct stored number; null once there are too many to remember. */
   spellings: Map<number, string> | null = new Map();
+  /** Whether every number so far is an integer (tracked for wide columns only). */
   allIntegers = true;
   firstText: FirstText | null = null;
   private readonly dictionary = new Map<string, number>();
   private leadingMissing = 0;
+  private readonly verbatim: boolean;
 
   constructor(
     readonly name: string,
@@ -62,6 +64,7 @@ export class ColumnBuilder {
     readonly wide: boolean,
     private readonly extraMissing: ReadonlySet<string> | null,
   ) {
+    this.verbatim = reading === "verbatim";
     if (reading !== "infer") {
       this.state = ColumnState.Text;
       this.codes = newCodes();
@@ -69,7 +72,7 @@ export class ColumnBuilder {
   }
 
   add(field: string, line: number): void {
-    if (this.reading === "verbatim") {
+    if (this.verbatim) {
       this.pushText(field);
       return;
     }
@@ -142,7 +145,8 @@ export class ColumnBuilder {
 
   private pushNumber(value: number, text: string): void {
     this.numbers!.push(value);
-    if (this.allIntegers && !Number.isInteger(value)) this.allIntegers = false;
+    // Only the target's task inference asks whether all values are integers.
+    if (this.wide && this.allIntegers && !Number.isInteger(value)) this.allIntegers = false;
     const spellings = this.spellings;
     if (spellings !== null) {
       // Keyed by the value as stored, so a stored number finds its spelling again.

@@ -8,7 +8,6 @@ import { isMissingSpelling, parseBooleanField, parseNumericField, trimField } fr
 import { listNames } from "./infer-types.js";
 import { parseRecords, sniffFile, streamRecords } from "./read-csv.js";
 import { sniffDelimiter } from "./sniff-delimiter.js";
-import type { RecordContext } from "./table-builder.js";
 
 /** New rows read for prediction, coded the way the training rows were. */
 export interface PredictionRows {
@@ -76,14 +75,13 @@ class RowsReader implements ParsePosition {
     this.extraMissing = options.missing !== undefined && options.missing.length > 0 ? new Set(options.missing) : null;
   }
 
-  readonly onRecord = (record: string[], context: RecordContext): null => {
-    if (this.headerFields === 0) this.readHeader(record, context.lines);
+  readonly onRecord = (record: string[], line: number): void => {
+    if (this.headerFields === 0) this.readHeader(record, line);
     else {
-      for (let c = 0; c < this.kinds.length; c++) this.add(c, record[this.fieldIndex[c]], context.lines);
+      for (let c = 0; c < this.kinds.length; c++) this.add(c, record[this.fieldIndex[c]], line);
       this.rows++;
     }
-    this.lastLine = context.lines;
-    return null;
+    this.lastLine = line;
   };
 
   finish(): PredictionRows {

@@ -25,11 +25,6 @@ export interface IngestOptions {
   missing?: readonly string[];
 }
 
-/** Per CSV record, the parser's context; `lines` is the line on which the record ends. */
-export interface RecordContext {
-  readonly lines: number;
-}
-
 /**
  * Turns parsed CSV records into columns: the header decides each column's role, then every
  * record's fields go to their column builders. A table can also re-read a chosen set of
@@ -55,18 +50,16 @@ export class TableBuilder implements ParsePosition {
     this.extraMissing = options.missing !== undefined && options.missing.length > 0 ? new Set(options.missing) : null;
   }
 
-  /** csv-parse `on_record` handler; returns null so the parser keeps no records. */
-  readonly onRecord = (record: string[], context: RecordContext): null => {
-    if (this.headerFields === 0) this.readHeader(record, context.lines);
+  /** Takes one parsed record and the line on which it ends. */
+  readonly onRecord = (record: string[], line: number): void => {
+    if (this.headerFields === 0) this.readHeader(record, line);
     else {
-      const line = context.lines;
       const builders = this.builders;
       const fieldIndex = this.fieldIndex;
       for (let c = 0; c < builders.length; c++) builders[c].add(record[fieldIndex[c]], line);
       this.rows++;
     }
-    this.lastLine = context.lines;
-    return null;
+    this.lastLine = line;
   };
 
   /** Feature columns that must be read again as text. */
