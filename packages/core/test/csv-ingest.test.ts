@@ -200,6 +200,19 @@ describe("reading a file", () => {
     expect(column(streamed, "flag").kind).toBe("boolean");
   });
 
+  it("reads every row when the first lines make it expect far fewer", async () => {
+    // Long lines first: the row estimate from the first 64 KB is about a tenth of the rows.
+    const lines = ["note,x,y"];
+    for (let i = 0; i < 400; i++) lines.push(`${"long text ".repeat(20)},${i},${i % 2}`);
+    for (let i = 400; i < 30000; i++) lines.push(`s,${i},${i % 2}`);
+    const path = join(scratch, "uneven.csv");
+    writeFileSync(path, lines.join("\n"));
+    const dataset = await readCsvDataset(path, { target: "y" });
+    expect(dataset.rowCount).toBe(30000);
+    const x = numeric(dataset, "x");
+    expect(x.every((value, i) => value === i)).toBe(true);
+  });
+
   it("re-reads a file for a late categorical column", async () => {
     const lines = ["value,y"];
     for (let i = 0; i < SPELLING_MEMORY + 5; i++) lines.push(`${i / 8},${i % 2}`);

@@ -1,5 +1,5 @@
 import { MISSING_CODE } from "../frame.js";
-import { ChunkedArray } from "./chunked-array.js";
+import { GrowableArray } from "./growable-array.js";
 import { isMissingSpelling, parseNumericField, trimField } from "./field-values.js";
 
 /**
@@ -39,14 +39,14 @@ export interface FirstText {
 }
 
 /**
- * One column of a CSV file being ingested, converted field by field into typed chunks
+ * One column of a CSV file being ingested, converted field by field into a typed buffer
  * (one pass, no strings kept per row). Numbers are stored optimistically; `wide` columns
  * (the target) keep float64, features float32 (see dataset/pack.ts for why float32 is enough).
  */
 export class ColumnBuilder {
   state: ColumnState = ColumnState.Empty;
-  numbers: ChunkedArray<Float32Array | Float64Array> | null = null;
-  codes: ChunkedArray<Int32Array> | null = null;
+  numbers: GrowableArray<Float32Array | Float64Array> | null = null;
+  codes: GrowableArray<Int32Array> | null = null;
   /** Category string of each code, in order of first appearance. */
   readonly vocabulary: string[] = [];
   /** First spelling of each distinct stored number; null once there are too many to remember. */
@@ -63,11 +63,13 @@ export class ColumnBuilder {
     readonly reading: ColumnReading,
     readonly wide: boolean,
     private readonly extraMissing: ReadonlySet<string> | null,
+    /** Expected number of rows, to size the buffers. */
+    private readonly expectedRows: number,
   ) {
     this.verbatim = reading === "verbatim";
     if (reading !== "infer") {
       this.state = ColumnState.Text;
-      this.codes = newCodes();
+      this.codes = this.newCodes(0);
     }
   }
 
@@ -131,13 +133,16 @@ export class ColumnBuilder {
     const value = parseNumericField(text);
     if (value === value) {
       this.state = ColumnState.Numeric;
-      this.numbers = this.wide ? new ChunkedArray((n) => new Float64Array(n)) : new ChunkedArray((n) => new Float32Array(n));
+      const capacity = Math.max(this.expectedRows, this.leadingMissing + 1);
+      this.numbers = this.wide
+        ? new GrowableArray((n) => new Float64Array(n), capacity)
+        : new GrowableArray((n) => new Float32Array(n), capacity);
       this.numbers.pushRepeated(NaN, this.leadingMissing);
       this.pushNumber(value, text);
     } else {
       this.state = ColumnState.Text;
       this.firstText = { line, value: text };
-      this.codes = newCodes();
+      this.codes = this.newCodes(this.leadingMissing + 1);
       this.codes.pushRepeated(MISSING_CODE, this.leadingMissing);
       this.pushText(text);
     }
@@ -180,17 +185,18 @@ export class ColumnBuilder {
     // Earlier rows take the first spelling of their number ("1" and "1.0" become one
     // category); a float64 column past the spelling memory falls back to the shortest
     // text that reads back as the same number.
-    const codes = newCodes();
+    const codes = this.newCodes(numbers.length + 1);
     this.codes = codes;
-    numbers.forEach((value) => {
+    for (let row = 0; row < numbers.length; row++) {
+      const value = numbers.at(row);
       if (value !== value) codes.push(MISSING_CODE);
       else this.pushText(spellings?.get(value) ?? String(value));
-    });
+    }
     this.state = ColumnState.Text;
     this.pushText(text);
   }
-}
 
-function newCodes(): ChunkedArray<Int32Array> {
-  return new ChunkedArray((n) => new Int32Array(n));
+  private newCodes(atLeast: number): GrowableArray<Int32Array> {
+    return new GrowableArray((n) => new Int32Array(n), Math.max(this.expectedRows, atLeast));
+  }
 }

@@ -27,17 +27,15 @@ export function targetPresence(target: ColumnBuilder, rowCount: number, source: 
     throw new InputError(`${source}: column "${target.name}"`, `all ${rowCount} values of the target are missing`);
   }
   const keep = new Uint8Array(rowCount);
-  let row = 0;
   let kept = 0;
-  const mark = (present: boolean): void => {
-    if (present) {
-      keep[row] = 1;
-      kept++;
-    }
-    row++;
-  };
-  if (target.state === ColumnState.Numeric) target.numbers!.forEach((value) => mark(value === value));
-  else target.codes!.forEach((code) => mark(code !== MISSING_CODE));
+  if (target.state === ColumnState.Numeric) {
+    const numbers = target.numbers!;
+    for (let row = 0; row < rowCount; row++) if (numbers.at(row) === numbers.at(row)) keep[row] = 1;
+  } else {
+    const codes = target.codes!;
+    for (let row = 0; row < rowCount; row++) if (codes.at(row) !== MISSING_CODE) keep[row] = 1;
+  }
+  for (let row = 0; row < rowCount; row++) kept += keep[row];
   return { keep: kept === rowCount ? null : keep, kept };
 }
 
@@ -48,12 +46,9 @@ export function finishFeature(builder: ColumnBuilder, keep: Uint8Array | null, r
   if (builder.state === ColumnState.Empty) {
     column = { name, kind: "numeric", values: new Float32Array(rowCount).fill(NaN) };
   } else if (builder.state === ColumnState.Numeric) {
-    const values = new Float32Array(rowCount);
-    builder.numbers!.copyTo(values, keep);
-    column = { name, kind: "numeric", values };
+    column = { name, kind: "numeric", values: builder.numbers!.finish(keep) };
   } else if (builder.state === ColumnState.Text) {
-    const codes = new Int32Array(rowCount);
-    builder.codes!.copyTo(codes, keep);
+    const codes = builder.codes!.finish(keep);
     const truth = builder.reading === "infer" ? booleanVocabulary(builder.vocabulary) : null;
     if (truth !== null) {
       const values = new Float32Array(rowCount);
@@ -109,15 +104,13 @@ function booleanVocabulary(vocabulary: readonly string[]): Float32Array | null {
 export function finishTarget(
   builder: ColumnBuilder,
   keep: Uint8Array | null,
-  rowCount: number,
   task: Task | undefined,
   source: string,
 ): { target: Target; task: Task } {
   const where = `${source}: column "${builder.name}"`;
   let result: { target: Target; task: Task };
   if (builder.state === ColumnState.Numeric) {
-    const values = new Float64Array(rowCount);
-    builder.numbers!.copyTo(values, keep);
+    const values = builder.numbers!.finish(keep) as Float64Array;
     const looksContinuous = !builder.allIntegers || builder.distinctNumbers > MAX_INTEGER_CLASSES;
     if (task === "regression" || (task === undefined && looksContinuous)) {
       const target: ValueTarget = { name: builder.name, kind: "values", values };
@@ -134,9 +127,7 @@ export function finishTarget(
         `the target of a regression must be numeric, found ${JSON.stringify(first.value)}`,
       );
     }
-    const codes = new Int32Array(rowCount);
-    builder.codes!.copyTo(codes, keep);
-    result = classesFromText(builder, codes, task, where);
+    result = classesFromText(builder, builder.codes!.finish(keep), task, where);
   }
   builder.release();
   return result;

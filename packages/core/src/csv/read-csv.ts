@@ -20,12 +20,12 @@ export type { IngestOptions } from "./table-builder.js";
  * numbers costs a second pass over the file.
  */
 export async function readCsvDataset(path: string, options: IngestOptions): Promise<Dataset> {
-  const delimiter = await sniffFile(path);
-  const table = new TableBuilder(path, options);
+  const { delimiter, expectedRows } = await inspectFile(path);
+  const table = new TableBuilder(path, options, expectedRows);
   await streamRecords(path, delimiter, table, table.onRecord);
   const lost = table.lostColumns();
   if (lost.length > 0) {
-    const reread = new TableBuilder(path, options, new Set(lost));
+    const reread = new TableBuilder(path, options, table.rows, new Set(lost));
     await streamRecords(path, delimiter, reread, reread.onRecord);
     table.adoptRereads(reread);
   }
@@ -36,15 +36,22 @@ export async function readCsvDataset(path: string, options: IngestOptions): Prom
 export function parseCsvDataset(text: string, source: string, options: IngestOptions): Dataset {
   if (text.length === 0) throw new InputError(source, "the file is empty");
   const delimiter = sniffDelimiter(text);
-  const table = new TableBuilder(source, options);
+  const table = new TableBuilder(source, options, countLineEnds(text));
   parseRecords(text, source, delimiter, table, table.onRecord);
   const lost = table.lostColumns();
   if (lost.length > 0) {
-    const reread = new TableBuilder(source, options, new Set(lost));
+    const reread = new TableBuilder(source, options, table.rows, new Set(lost));
     parseRecords(text, source, delimiter, reread, reread.onRecord);
     table.adoptRereads(reread);
   }
   return withFingerprint(table.finish());
+}
+
+/** Line ends in `text`: at least the number of data rows, and close to it. */
+export function countLineEnds(text: string): number {
+  let count = 0;
+  for (let at = text.indexOf("\n"); at >= 0; at = text.indexOf("\n", at + 1)) count++;
+  return count;
 }
 
 function withFingerprint(content: DatasetContent): Dataset {
@@ -108,11 +115,18 @@ export function parseRecords(text: string, source: string, delimiter: Delimiter,
   }
 }
 
+/** What the first bytes of a file tell before it is parsed. */
+export interface FileInspection {
+  readonly delimiter: Delimiter;
+  /** Data rows expected from the file size and the length of the first lines (an estimate). */
+  readonly expectedRows: number;
+}
+
 /**
- * The delimiter of a file, sniffed from its header line: reads from the start until the
- * first line end outside quotes (or the end of the file).
+ * Reads the start of a file (at least its header line, at least 64 KB when there is that
+ * much) to sniff the delimiter and estimate the row count.
  */
-export async function sniffFile(path: string): Promise<Delimiter> {
+export async function inspectFile(path: string): Promise<FileInspection> {
   let handle;
   try {
     handle = await open(path, "r");
@@ -120,6 +134,8 @@ export async function sniffFile(path: string): Promise<Delimiter> {
     throw csvInputError(error, path, { headerFields: 0, lastLine: 0 });
   }
   try {
+    const size = (await handle.stat()).size;
+    if (size === 0) throw new InputError(path, "the file is empty");
     const chunk = Buffer.alloc(1 << 16);
     let text = "";
     let total = 0;
@@ -131,11 +147,20 @@ export async function sniffFile(path: string): Promise<Delimiter> {
       // A header longer than 1 MB is not a header; sniff what has been read.
       if (holdsHeaderLine(text) || total >= 1 << 20) break;
     }
-    if (total === 0) throw new InputError(path, "the file is empty");
-    return sniffDelimiter(text);
+    return { delimiter: sniffDelimiter(text), expectedRows: estimateRows(text, total, size) };
   } catch (error) {
     throw csvInputError(error, path, { headerFields: 0, lastLine: 0 });
   } finally {
     await handle.close();
   }
+}
+
+/** File size over the mean length of the complete lines after the header in `start`, plus 5 %. */
+function estimateRows(start: string, startBytes: number, fileBytes: number): number {
+  const headerEnd = start.indexOf("\n");
+  const lastEnd = start.lastIndexOf("\n");
+  if (headerEnd < 0 || lastEnd <= headerEnd) return 1024;
+  const lines = countLineEnds(start.slice(headerEnd + 1, lastEnd + 1));
+  const bytesPerLine = (((lastEnd - headerEnd) / start.length) * startBytes) / lines;
+  return Math.ceil((1.05 * fileBytes) / bytesPerLine) + 16;
 }

@@ -2,11 +2,11 @@ import { InputError } from "../errors.js";
 import type { FeatureColumn } from "../frame.js";
 import { MISSING_CODE } from "../frame.js";
 import type { ColumnSchema } from "../dataset/dataset.js";
-import { ChunkedArray } from "./chunked-array.js";
+import { GrowableArray } from "./growable-array.js";
 import type { ParsePosition } from "./csv-errors.js";
 import { isMissingSpelling, parseBooleanField, parseNumericField, trimField } from "./field-values.js";
 import { listNames } from "./infer-types.js";
-import { parseRecords, sniffFile, streamRecords } from "./read-csv.js";
+import { countLineEnds, inspectFile, parseRecords, streamRecords } from "./read-csv.js";
 import { sniffDelimiter } from "./sniff-delimiter.js";
 
 /** New rows read for prediction, coded the way the training rows were. */
@@ -29,8 +29,8 @@ export interface ReadRowsOptions {
  * missing and is counted in `unseen`.
  */
 export async function readCsvRows(path: string, schema: readonly ColumnSchema[], options: ReadRowsOptions = {}): Promise<PredictionRows> {
-  const delimiter = await sniffFile(path);
-  const reader = new RowsReader(path, schema, options);
+  const { delimiter, expectedRows } = await inspectFile(path);
+  const reader = new RowsReader(path, schema, options, expectedRows);
   await streamRecords(path, delimiter, reader, reader.onRecord);
   return reader.finish();
 }
@@ -38,7 +38,7 @@ export async function readCsvRows(path: string, schema: readonly ColumnSchema[],
 /** The same as readCsvRows, for CSV text already in memory. */
 export function parseCsvRows(text: string, source: string, schema: readonly ColumnSchema[], options: ReadRowsOptions = {}): PredictionRows {
   if (text.length === 0) throw new InputError(source, "the file is empty");
-  const reader = new RowsReader(source, schema, options);
+  const reader = new RowsReader(source, schema, options, countLineEnds(text));
   parseRecords(text, source, sniffDelimiter(text), reader, reader.onRecord);
   return reader.finish();
 }
@@ -53,8 +53,8 @@ class RowsReader implements ParsePosition {
   rows = 0;
   private readonly kinds: Uint8Array;
   private readonly fieldIndex: Int32Array;
-  private readonly numbers: (ChunkedArray<Float32Array> | null)[];
-  private readonly codes: (ChunkedArray<Int32Array> | null)[];
+  private readonly numbers: (GrowableArray<Float32Array> | null)[];
+  private readonly codes: (GrowableArray<Int32Array> | null)[];
   private readonly dictionaries: (Map<string, number> | null)[];
   private readonly unseen: Int32Array;
   private readonly extraMissing: ReadonlySet<string> | null;
@@ -63,11 +63,12 @@ class RowsReader implements ParsePosition {
     private readonly source: string,
     private readonly schema: readonly ColumnSchema[],
     options: ReadRowsOptions,
+    expectedRows: number,
   ) {
     this.kinds = Uint8Array.from(schema, (column) => (column.kind === "numeric" ? NUMERIC : column.kind === "boolean" ? BOOLEAN : CATEGORICAL));
     this.fieldIndex = new Int32Array(schema.length);
-    this.numbers = schema.map((column) => (column.kind === "categorical" ? null : new ChunkedArray((n) => new Float32Array(n))));
-    this.codes = schema.map((column) => (column.kind === "categorical" ? new ChunkedArray((n) => new Int32Array(n)) : null));
+    this.numbers = schema.map((column) => (column.kind === "categorical" ? null : new GrowableArray((n) => new Float32Array(n), expectedRows)));
+    this.codes = schema.map((column) => (column.kind === "categorical" ? new GrowableArray((n) => new Int32Array(n), expectedRows) : null));
     this.dictionaries = schema.map((column) =>
       column.kind === "categorical" ? new Map((column.vocabulary ?? []).map((category, code) => [category, code])) : null,
     );
@@ -90,13 +91,11 @@ class RowsReader implements ParsePosition {
     const unseen: Record<string, number> = {};
     const columns = this.schema.map((column, c): FeatureColumn => {
       if (column.kind === "categorical") {
-        const codes = new Int32Array(rowCount);
-        this.codes[c]!.copyTo(codes, null);
+        const codes = this.codes[c]!.finish(null);
         unseen[column.name] = this.unseen[c];
         return { name: column.name, kind: "categorical", codes, vocabulary: column.vocabulary ?? [] };
       }
-      const values = new Float32Array(rowCount);
-      this.numbers[c]!.copyTo(values, null);
+      const values = this.numbers[c]!.finish(null);
       return { name: column.name, kind: column.kind, values };
     });
     return { columns, rowCount, unseen };

@@ -44,6 +44,8 @@ export class TableBuilder implements ParsePosition {
   constructor(
     readonly source: string,
     private readonly options: IngestOptions,
+    /** Expected number of data rows, to size the column buffers (an estimate is fine). */
+    private readonly expectedRows: number,
     /** When given, only these columns are read, as categorical text. */
     private readonly rereadOnly: ReadonlySet<string> | null = null,
   ) {
@@ -78,7 +80,7 @@ export class TableBuilder implements ParsePosition {
     if (this.rows === 0) throw new InputError(`${this.source}:${this.lastLine}`, "the file has a header but no data rows");
     const targetBuilder = this.target!;
     const { keep, kept } = targetPresence(targetBuilder, this.rows, this.source);
-    const { target, task } = finishTarget(targetBuilder, keep, kept, this.options.task, this.source);
+    const { target, task } = finishTarget(targetBuilder, keep, this.options.task, this.source);
     let groups: Int32Array | undefined;
     if (this.group !== null) groups = this.finishGroups(this.group, keep, kept);
     const features: FeatureColumn[] = [];
@@ -134,7 +136,7 @@ export class TableBuilder implements ParsePosition {
       const isTarget = name === options.target;
       const isGroup = name === options.group;
       const reading = isGroup ? "verbatim" : this.rereadOnly !== null || categorical.has(name) ? "text" : "infer";
-      const builder = new ColumnBuilder(name, reading, isTarget, this.extraMissing);
+      const builder = new ColumnBuilder(name, reading, isTarget, this.extraMissing, this.expectedRows);
       if (isTarget) this.target = builder;
       if (isGroup) this.group = builder;
       builders.push(builder);
@@ -145,8 +147,7 @@ export class TableBuilder implements ParsePosition {
   }
 
   private finishGroups(builder: ColumnBuilder, keep: Uint8Array | null, rowCount: number): Int32Array {
-    const raw = new Int32Array(rowCount);
-    builder.codes!.copyTo(raw, keep);
+    const raw = builder.codes!.finish(keep);
     // Renumber in order of first appearance among the kept rows.
     const renumber = new Int32Array(builder.vocabulary.length).fill(-1);
     const names: string[] = [];
