@@ -1,0 +1,118 @@
+import { mkdtempSync, rmSync, writeFileSync } from "node:fs";
+import { tmpdir } from "node:os";
+import { join } from "node:path";
+import { afterAll, describe, expect, it } from "vitest";
+import { parseCsvDataset, readCsvDataset, type IngestOptions } from "../src/csv/read-csv.js";
+import { InputError } from "../src/errors.js";
+import { planFolds } from "../src/splits/plan-folds.js";
+import { allRows } from "../src/frame.js";
+
+const scratch = mkdtempSync(join(tmpdir(), "nightshift-bad-"));
+afterAll(() => rmSync(scratch, { recursive: true, force: true }));
+
+/** The single InputError that reading `text` (as a file, streamed) gives. */
+async function fileError(text: string, options: IngestOptions, name = "data.csv"): Promise<InputError> {
+  const path = join(scratch, name);
+  writeFileSync(path, text);
+  const error = await readCsvDataset(path, options).then(
+    () => null,
+    (e: unknown) => e,
+  );
+  expect(error).toBeInstanceOf(InputError);
+  // The text path must fail the same way.
+  expect(() => parseCsvDataset(text, path, options)).toThrow((error as InputError).message);
+  return error as InputError;
+}
+
+describe("bad CSV input gives one InputError naming file and line", () => {
+  it("ragged rows", async () => {
+    const error = await fileError("a,b,y\n1,2,0\n3,4,1\n5,6\n", { target: "y" });
+    expect(error.message).toMatch(/data\.csv:4: this row has 2 fields but the header has 3/);
+  });
+
+  it("an unterminated quote", async () => {
+    const error = await fileError('a,b,y\n1,2,0\n3,"4,1\n5,6,0\n', { target: "y" });
+    expect(error.message).toMatch(/data\.csv:3: a quoted field that starts on this line or later is never closed/);
+  });
+
+  it("text after a closing quote", async () => {
+    const error = await fileError('a,y\n"x"y,0\n', { target: "y" });
+    expect(error.message).toMatch(/data\.csv:2: a closing quote is followed by more text/);
+  });
+
+  it("an empty file", async () => {
+    const error = await fileError("", { target: "y" }, "empty.csv");
+    expect(error.message).toMatch(/empty\.csv: the file is empty/);
+  });
+
+  it("a header with no rows", async () => {
+    const error = await fileError("a,b,y\n", { target: "y" });
+    expect(error.message).toMatch(/data\.csv:1: the file has a header but no data rows/);
+  });
+
+  it("duplicate column names", async () => {
+    const error = await fileError("a,b,a,y\n1,2,3,0\n", { target: "y" });
+    expect(error.message).toMatch(/data\.csv:1: duplicate column name "a" \(columns 1 and 3\)/);
+  });
+
+  it("a target column that is not in the file, listing the columns", async () => {
+    const error = await fileError("a,b,label\n1,2,0\n", { target: "y" });
+    expect(error.message).toMatch(/data\.csv:1: the target is "y", which is not a column of the file; the columns are "a", "b", "label"/);
+  });
+
+  it("a target with a single class", async () => {
+    const error = await fileError("a,y\n1,yes\n2,yes\n3,\n", { target: "y" });
+    expect(error.message).toMatch(/data\.csv: column "y": the target has a single class \("yes"\)/);
+  });
+
+  it("a target with every value missing", async () => {
+    const error = await fileError("a,y\n1,\n2,NA\n", { target: "y" });
+    expect(error.message).toMatch(/data\.csv: column "y": all 2 values of the target are missing/);
+  });
+
+  it("a non-numeric value in a regression target, with its line and value", async () => {
+    const error = await fileError("a,y\n1,0.5\n2,1.5\n3,n/a\n4,2.5\n", { target: "y", task: "regression" });
+    expect(error.message).toMatch(/data\.csv:4: column "y": the target of a regression must be numeric, found "n\/a"/);
+  });
+
+  it("the line of a bad value after records that span several lines", async () => {
+    const rows = ["note,y"];
+    for (let i = 0; i < 3000; i++) rows.push(i % 3 === 0 ? `"two\nlines",${i}.5` : `one,${i}.5`);
+    rows.push("last,oops");
+    // 1 header line, 1000 records of two lines, 2000 of one line: the bad record is on line 4002.
+    const error = await fileError(`${rows.join("\n")}\n`, { target: "y", task: "regression" }, "multiline.csv");
+    expect(error.message).toMatch(/multiline\.csv:4002: column "y": the target of a regression must be numeric, found "oops"/);
+  });
+
+  it("a group column with a single group", async () => {
+    const error = await fileError("site,a,y\nX,1,0\nX,2,1\n", { target: "y", group: "site" });
+    expect(error.message).toMatch(/data\.csv: column "site": the group column has a single group \("X"\)/);
+  });
+
+  it("ignore naming an unknown column", async () => {
+    const error = await fileError("a,b,y\n1,2,0\n", { target: "y", ignore: ["b", "id"] });
+    expect(error.message).toMatch(/data\.csv:1: ignore names "id", which is not a column of the file/);
+  });
+
+  it("a binary task with three classes", async () => {
+    const error = await fileError("a,y\n1,x\n2,y\n3,z\n", { target: "y", task: "binary" });
+    expect(error.message).toMatch(/data\.csv: column "y": the task is binary but the target has 3 classes/);
+  });
+
+  it("a file that does not exist", async () => {
+    const error = await readCsvDataset(join(scratch, "absent.csv"), { target: "y" }).catch((e: unknown) => e);
+    expect(error).toBeInstanceOf(InputError);
+    expect((error as InputError).message).toMatch(/absent\.csv: cannot read the file \(no such file\)/);
+  });
+});
+
+describe("bad fold settings", () => {
+  it("k larger than the smallest class names the class and its count", () => {
+    const rows = ["x,species", ...Array.from({ length: 12 }, (_, i) => `${i},Adelie`), ...Array.from({ length: 3 }, (_, i) => `${i},Chinstrap`)];
+    const dataset = parseCsvDataset(rows.join("\n"), "penguins.csv", { target: "species" });
+    expect(() => planFolds(dataset, allRows(dataset.rowCount), { k: 5, repeats: 1, stratify: true }, 1)).toThrow(
+      /penguins\.csv: folds\.k: k = 5 is more than the 3 rows of class "Chinstrap" in column "species"/,
+    );
+    expect(planFolds(dataset, allRows(dataset.rowCount), { k: 3, repeats: 1, stratify: true }, 1)).toHaveLength(3);
+  });
+});
