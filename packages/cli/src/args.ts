@@ -1,10 +1,16 @@
 import { parseArgs, type ParseArgsConfig } from "node:util";
+
 import { InputError } from "@nightshift/core";
 
 type Options = NonNullable<ParseArgsConfig["options"]>;
 
 /** Parses a verb's arguments; a mistake is an InputError (exit 2) that names the verb. */
-export function parseVerbArgs<O extends Options>(verb: string, args: string[], options: O, positionals: { min: number; max: number; names: string }) {
+export function parseVerbArgs<O extends Options>(
+  verb: string,
+  args: string[],
+  options: O,
+  positionals: { min: number; max: number; names: string },
+): { values: ReturnType<typeof parseArgs<{ options: O; allowPositionals: true; strict: true }>>["values"]; positionals: string[] } {
   let parsed;
   try {
     parsed = parseArgs({ args, options, allowPositionals: true, strict: true });

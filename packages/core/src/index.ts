@@ -10,6 +10,7 @@ export * from "./csv/sniff-delimiter.js";
 export * from "./dataset/dataset.js";
 export * from "./dataset/fingerprint.js";
 export * from "./dataset/pack.js";
+export * from "./dataset/subset.js";
 export * from "./splits/fold.js";
 export * from "./splits/k-fold.js";
 export * from "./splits/stratified-folds.js";
