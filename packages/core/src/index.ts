@@ -17,3 +17,4 @@ export * from "./splits/stratified-folds.js";
 export * from "./splits/group-folds.js";
 export * from "./splits/holdout.js";
 export * from "./splits/plan-folds.js";
+export * from "./metrics/index.js";
