@@ -1,4 +1,4 @@
-import type { Dataset, Task } from "@nightshift/core";
+import { type Dataset, defaultMetricFor, type Task } from "@nightshift/core";
 
 /**
  * The search space `init` and `demo` write: every family with ranges that suit most tabular
@@ -19,20 +19,8 @@ export function defaultFamiliesYaml(task: Task, rows: number): string {
   return lines.join("\n");
 }
 
-export function positiveShare(dataset: Dataset): number | null {
-  const target = dataset.target;
-  if (target.kind !== "classes" || target.labels.length !== 2) return null;
-  let positives = 0;
-  for (let i = 0; i < target.codes.length; i++) if (target.codes[i] === 1) positives++;
-  return positives / target.codes.length;
-}
-
 /** The metric `init` proposes, with the reason written beside it in the plan. */
 export function proposedMetric(dataset: Dataset): { metric: string; why: string } {
-  if (dataset.task === "regression") return { metric: "rmse", why: "root mean squared error of the predicted number" };
-  if (dataset.task === "multiclass") return { metric: "log_loss", why: "rewards well-calibrated class probabilities; accuracy is reported too" };
-  const share = positiveShare(dataset) ?? 0.5;
-  if (share < 0.2)
-    return { metric: "average_precision", why: `rare positive class (${(share * 100).toFixed(1)}%): accuracy would reward predicting 'never'` };
-  return { metric: "roc_auc", why: "balanced enough classes: ranking quality over all thresholds" };
+  const { name, reason } = defaultMetricFor(dataset.task, dataset.target);
+  return { metric: name, why: reason };
 }

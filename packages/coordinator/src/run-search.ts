@@ -90,7 +90,7 @@ export async function prepareRun(planPath: string, overrides: { trials?: number 
     task: plan.task,
     group: plan.folds.group,
   });
-  const metricName = plan.metric ?? defaultMetricFor(dataset.task, dataset.target);
+  const metricName = plan.metric ?? defaultMetricFor(dataset.task, dataset.target).name;
   let metric: Metric;
   try {
     metric = metricByName(metricName);

@@ -37,3 +37,4 @@ export {
   isMetricName,
   metricByName,
 } from "./registry.js";
+export * from "./default-metric.js";
