@@ -152,7 +152,8 @@ export function f1Score(matrix: Uint32Array): number {
 }
 
 /**
- * Matthews correlation coefficient in the multiclass form (Gorodkin 2004) that scikit-learn's
+ * Matthews correlation coefficient in the multiclass form (Gorodkin, Comput. Biol. Chem. 28:367–374,
+ * 2004; reference from memory) that scikit-learn's
  * `matthews_corrcoef` uses for every case, binary included:
  * (c·s − Σ_k p_k·t_k) / sqrt((s² − Σ_k p_k²)(s² − Σ_k t_k²)), c = correct, s = rows,
  * t_k / p_k = true / predicted count of class k. 0 when the denominator is 0.
