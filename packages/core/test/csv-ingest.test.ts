@@ -127,6 +127,12 @@ describe("type inference", () => {
     expect(column(dataset, "x").kind).toBe("numeric");
   });
 
+  it("reads numbers with surrounding spaces, and numbers listed as missing spellings as missing", () => {
+    const dataset = parseCsvDataset("x,z,y\n 7 ,-999,0\n8,  3.5,1\n9 ,-999 ,0\n", "spaces.csv", { target: "y", missing: ["-999"] });
+    expect(numeric(dataset, "x")).toEqual([7, 8, 9]);
+    expect(numeric(dataset, "z")).toEqual([NaN, 3.5, NaN]);
+  });
+
   it("leaves out ignored columns and reads extra missing spellings", () => {
     const dataset = parseCsvDataset("id,sex,y\n1,M,0\n2,.,1\n3,F,0\n", "extra.csv", { target: "y", ignore: ["id"], missing: ["."] });
     expect(dataset.features.map((c) => c.name)).toEqual(["sex"]);
