@@ -108,10 +108,13 @@ describe("bad CSV input gives one InputError naming file and line", () => {
 
 describe("bad fold settings", () => {
   it("k larger than the smallest class names the class and its count", () => {
-    const rows = ["x,species", ...Array.from({ length: 12 }, (_, i) => `${i},Adelie`), ...Array.from({ length: 3 }, (_, i) => `${i},Chinstrap`)];
+    const rows = ["x,species"];
+    for (const [species, count] of [["Adelie", 12], ["Chinstrap", 4], ["Gentoo", 3]] as const) {
+      for (let i = 0; i < count; i++) rows.push(`${i},${species}`);
+    }
     const dataset = parseCsvDataset(rows.join("\n"), "penguins.csv", { target: "species" });
     expect(() => planFolds(dataset, allRows(dataset.rowCount), { k: 5, repeats: 1, stratify: true }, 1)).toThrow(
-      /penguins\.csv: folds\.k: k = 5 is more than the 3 rows of class "Chinstrap" in column "species"/,
+      /penguins\.csv: folds\.k: k = 5 is more than the 3 rows of class "Gentoo" in column "species"/,
     );
     expect(planFolds(dataset, allRows(dataset.rowCount), { k: 3, repeats: 1, stratify: true }, 1)).toHaveLength(3);
   });

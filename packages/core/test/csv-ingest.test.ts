@@ -5,7 +5,7 @@ import { afterAll, describe, expect, it } from "vitest";
 import { parseCsvDataset, readCsvDataset } from "../src/csv/read-csv.js";
 import { SPELLING_MEMORY } from "../src/csv/column-builder.js";
 import { sniffDelimiter } from "../src/csv/sniff-delimiter.js";
-import type { Dataset } from "../src/dataset/dataset.js";
+import { trainView, type Dataset } from "../src/dataset/dataset.js";
 import type { CategoricalColumn, FeatureColumn, NumericColumn } from "../src/frame.js";
 import { MISSING_CODE } from "../src/frame.js";
 
@@ -127,6 +127,12 @@ describe("type inference", () => {
     expect(column(dataset, "x").kind).toBe("numeric");
   });
 
+  it("reads numbers with surrounding spaces, and numbers listed as missing spellings as missing", () => {
+    const dataset = parseCsvDataset("x,z,y\n 7 ,-999,0\n8,  3.5,1\n9 ,-999 ,0\n", "spaces.csv", { target: "y", missing: ["-999"] });
+    expect(numeric(dataset, "x")).toEqual([7, 8, 9]);
+    expect(numeric(dataset, "z")).toEqual([NaN, 3.5, NaN]);
+  });
+
   it("leaves out ignored columns and reads extra missing spellings", () => {
     const dataset = parseCsvDataset("id,sex,y\n1,M,0\n2,.,1\n3,F,0\n", "extra.csv", { target: "y", ignore: ["id"], missing: ["."] });
     expect(dataset.features.map((c) => c.name)).toEqual(["sex"]);
@@ -174,6 +180,15 @@ describe("target and task", () => {
     expect(numeric(dataset, "x")).toEqual([1, 4]);
     // Categories seen only in dropped rows are gone.
     expect((column(dataset, "c") as CategoricalColumn).vocabulary).toEqual(["a"]);
+  });
+
+  it("gives learners a view of chosen rows with the target and task, sharing the columns", () => {
+    const dataset = parseCsvDataset("x,y\n1,a\n2,b\n3,a\n", "view.csv", { target: "y" });
+    const view = trainView(dataset, Uint32Array.of(0, 2));
+    expect(view.task).toBe("binary");
+    expect(view.target).toBe(dataset.target);
+    expect(view.columns[0]).toBe(dataset.features[0]);
+    expect(Array.from(view.rows)).toEqual([0, 2]);
   });
 
   it("keeps the group column aside as group ids", () => {

@@ -57,6 +57,7 @@ export class ColumnBuilder {
   private readonly dictionary = new Map<string, number>();
   private leadingMissing = 0;
   private readonly verbatim: boolean;
+  private readonly numericFastPath: boolean;
 
   constructor(
     readonly name: string,
@@ -67,6 +68,7 @@ export class ColumnBuilder {
     private readonly expectedRows: number,
   ) {
     this.verbatim = reading === "verbatim";
+    this.numericFastPath = extraMissing === null;
     if (reading !== "infer") {
       this.state = ColumnState.Text;
       this.codes = this.newCodes(0);
@@ -74,6 +76,20 @@ export class ColumnBuilder {
   }
 
   add(field: string, line: number): void {
+    // Hot path: a numeric column and a field that is a plain number. The field cannot be a
+    // missing spelling then (none of them reads as a number, and extra ones disable this path).
+    if (this.state === ColumnState.Numeric && this.numericFastPath) {
+      const value = parseNumericField(field);
+      if (value === value) {
+        if (this.spellings === null && !this.wide) this.numbers!.push(value);
+        else this.pushNumber(value, field);
+        return;
+      }
+    }
+    this.addField(field, line);
+  }
+
+  private addField(field: string, line: number): void {
     if (this.verbatim) {
       this.pushText(field);
       return;

@@ -39,7 +39,8 @@ const POWERS_OF_TEN = Array.from({ length: 23 }, (_, e) => Number(`1e${e}`));
 const EXACT_INTEGER_LIMIT = 2 ** 53;
 
 /**
- * The number a trimmed, non-missing field holds, or NaN when it is not a decimal number.
+ * The number a non-missing field holds, or NaN when it is not a decimal number (or has
+ * surrounding whitespace: trim first).
  * Accepts what `Number()` accepts (signs, exponents, `Infinity`) except JavaScript's
  * hexadecimal, binary and octal literals, which in a data file are identifiers, not numbers.
  *
@@ -81,6 +82,8 @@ export function parseNumericField(text: string): number {
 
 function parseOtherNumber(text: string): number {
   const first = text.charCodeAt(0);
+  // Number() ignores surrounding whitespace; callers trim first, so whitespace here means untrimmed text.
+  if (text.charCodeAt(text.length - 1) <= 32) return NaN;
   // A decimal number starts with a digit, a sign, a point or the I of Infinity; anything
   // else is text, and rejecting it here keeps categorical columns cheap.
   if (!((first >= 48 && first <= 57) || first === 45 || first === 43 || first === 46 || first === 73)) return NaN;

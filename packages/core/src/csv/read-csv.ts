@@ -14,7 +14,7 @@ export type { IngestOptions } from "./table-builder.js";
 
 /**
  * Reads a training CSV file into typed columns. The file is streamed through csv-parse
- * and every field is converted into its column's typed chunks as it arrives, so memory
+ * and every field is converted into its column's typed buffer as it arrives, so memory
  * holds the typed data, not the text. Types are inferred in that same pass (see
  * infer-types.ts); only a column that turns categorical after over a thousand distinct
  * numbers costs a second pass over the file.
@@ -47,7 +47,7 @@ export function parseCsvDataset(text: string, source: string, options: IngestOpt
   return withFingerprint(table.finish());
 }
 
-/** Line ends in `text`: at least the number of data rows, and close to it. */
+/** Line feeds in `text`: about the number of data rows (a sizing hint; CR-only text gives 0). */
 export function countLineEnds(text: string): number {
   let count = 0;
   for (let at = text.indexOf("\n"); at >= 0; at = text.indexOf("\n", at + 1)) count++;

@@ -35,14 +35,13 @@ export function planFolds(dataset: Dataset, rows: Uint32Array, spec: FoldSpec, s
     assign = (repeat) => groupFoldAssignment(rows, groups, k, createRng(seed, "folds", repeat));
   } else if (spec.stratify && dataset.target.kind === "classes") {
     const target = dataset.target;
-    for (const positions of positionsByCode(rows, target.codes)) {
-      if (positions.length < k) {
-        const label = target.labels[target.codes[rows[positions[0]]]];
-        throw new InputError(
-          `${where}.k`,
-          `k = ${k} is more than the ${positions.length} rows of class ${JSON.stringify(label)} in column "${target.name}", so some fold would have none; lower k or merge rare classes`,
-        );
-      }
+    const smallest = positionsByCode(rows, target.codes).reduce((a, b) => (b.length < a.length ? b : a));
+    if (smallest.length < k) {
+      const label = target.labels[target.codes[rows[smallest[0]]]];
+      throw new InputError(
+        `${where}.k`,
+        `k = ${k} is more than the ${smallest.length} rows of class ${JSON.stringify(label)} in column "${target.name}", so some fold would have none; lower k or merge rare classes`,
+      );
     }
     assign = (repeat) => stratifiedFoldAssignment(rows, target.codes, k, createRng(seed, "folds", repeat));
   } else {
