@@ -75,6 +75,11 @@ export class TreeGrower {
   private readonly channel: Int32Array;
   /** Bootstrap multiplicity (or 1) of the row. */
   private readonly count: Float64Array;
+  /** A random cut's bins by position, and those of the best cut so far (swapped, not copied). */
+  private gathered: Uint8Array;
+  private bestGathered: Uint8Array;
+  /** Whether bestGathered holds the bins of the node's best split so far. */
+  private bestIsGathered = false;
   /** Whether every count is 1 (no bootstrap): kernels then skip the counts. */
   private unitCounts = false;
   /** count·y of the row, regression only. */
@@ -131,6 +136,8 @@ export class TreeGrower {
     this.channel = new Int32Array(this.regression ? 0 : rowCount);
     this.count = new Float64Array(rowCount);
     this.countTimesValue = new Float64Array(this.regression ? rowCount : 0);
+    this.gathered = new Uint8Array(settings.randomCuts ? rowCount : 0);
+    this.bestGathered = new Uint8Array(settings.randomCuts ? rowCount : 0);
     const p = this.featureCount;
     this.order = new Int32Array(p);
     this.slots = new Int32Array(p);
@@ -204,6 +211,7 @@ export class TreeGrower {
     const finder = this.finder;
     const rows = end - start;
     finder.beginNode(stats, rows);
+    this.bestIsGathered = false;
     const constantNow = this.constantNow;
     const categorical = this.data.categorical;
     const random = this.settings.splitFeatures < usableCount;
@@ -384,18 +392,27 @@ export class TreeGrower {
     const missing = finder.missing;
     const tally = this.tally;
     if (!categorical) {
-      const range = binRange(column, this.index, start, end);
+      const gathered = this.gathered;
+      const range = gatherRange(column, this.index, start, end, gathered);
       const lowest = range & 0xff;
       const highest = (range >>> 8) & 0xff;
       const hasMissing = range >>> 16 === 1;
       if (lowest > highest || (lowest === highest && !hasMissing)) return false;
       const threshold = lowest < highest ? lowest + rng.int(highest - lowest) : lowest;
-      if (this.regression) cutRegression(column, this.index, start, end, this.count, this.countTimesValue, threshold, left, missing, tally);
-      else if (this.width === 2 && this.unitCounts) cutTwoClassesUnit(column, this.index, start, end, this.channel, threshold, left, missing, tally);
-      else if (this.width === 2) cutTwoClasses(column, this.index, start, end, this.channel, this.count, threshold, left, missing, tally);
-      else cutClasses(column, this.index, start, end, this.channel, this.count, threshold, this.sideSums, this.stride, left, missing, tally);
+      if (this.regression) cutRegression(gathered, start, end, this.count, this.countTimesValue, threshold, left, missing, tally);
+      else if (this.width === 2 && this.unitCounts && !hasMissing) cutTwoClassesUnitComplete(gathered, start, end, this.channel, threshold, left, missing, tally);
+      else if (this.width === 2 && this.unitCounts) cutTwoClassesUnit(gathered, start, end, this.channel, threshold, left, missing, tally);
+      else if (this.width === 2) cutTwoClasses(gathered, start, end, this.channel, this.count, threshold, left, missing, tally);
+      else cutClasses(gathered, start, end, this.channel, this.count, threshold, this.sideSums, this.stride, left, missing, tally);
       finder.missingRows = tally[1];
+      const updates = finder.updates;
       finder.considerCut(feature, threshold, tally[0], false);
+      if (finder.updates !== updates) {
+        // The best cut's bins are kept for the partition.
+        this.gathered = this.bestGathered;
+        this.bestGathered = gathered;
+        this.bestIsGathered = true;
+      }
       return true;
     }
     const present = this.presentBins;
@@ -440,7 +457,9 @@ export class TreeGrower {
     if (this.regression) sumRegressionInSet(column, this.index, start, end, this.count, this.countTimesValue, set, left, missing, tally);
     else sumClassesInSet(column, this.index, start, end, this.channel, this.count, set, left, missing, tally);
     finder.missingRows = tally[1];
+    const updates = finder.updates;
     finder.considerCut(feature, -size, tally[0], true);
+    if (finder.updates !== updates) this.bestIsGathered = false;
     return true;
   }
 
@@ -477,9 +496,9 @@ export class TreeGrower {
       goesLeft.fill(0, finder.threshold + 1, MISSING_BIN);
       goesLeft[MISSING_BIN] = finder.missingLeft ? 1 : 0;
     }
-    return this.regression
-      ? partitionRows(column, goesLeft, this.index, this.count, this.countTimesValue, start, end)
-      : partitionRows(column, goesLeft, this.index, this.count, this.channel, start, end);
+    const other = this.regression ? this.countTimesValue : this.channel;
+    if (this.bestIsGathered) return partitionGathered(this.bestGathered, goesLeft, this.index, this.count, other, start, end);
+    return partitionRows(column, goesLeft, this.index, this.count, other, start, end);
   }
 
   private isTerminal(start: number, end: number, depth: number, stats: Float64Array): boolean {
@@ -700,16 +719,45 @@ function partitionRows(column: Uint8Array, goesLeft: Uint8Array, index: Uint32Ar
   return i;
 }
 
+/** partitionRows for a split whose bins by position are at hand (random cuts). */
+function partitionGathered(gathered: Uint8Array, goesLeft: Uint8Array, index: Uint32Array, count: Float64Array, other: Int32Array | Float64Array, start: number, end: number): number {
+  let i = start;
+  let j = end;
+  while (i < j) {
+    const bin = gathered[i];
+    if (goesLeft[bin] === 1) {
+      i++;
+      continue;
+    }
+    j--;
+    gathered[i] = gathered[j];
+    gathered[j] = bin;
+    const r = index[i];
+    index[i] = index[j];
+    index[j] = r;
+    const c = count[i];
+    count[i] = count[j];
+    count[j] = c;
+    const o = other[i];
+    other[i] = other[j];
+    other[j] = o;
+  }
+  return i;
+}
+
 /**
- * Lowest and highest present value bin of a feature over positions [start, end), and whether a
- * missing value occurs: lowest | highest << 8 | missing << 16 (lowest > highest when all are missing).
+ * Copies a feature's bins of positions [start, end) into `gathered` (same positions), so the
+ * next passes read them in order, and returns the lowest and highest present value bin and
+ * whether a missing value occurs: lowest | highest << 8 | missing << 16 (lowest > highest when
+ * all are missing).
  */
-function binRange(column: Uint8Array, index: Uint32Array, start: number, end: number): number {
+function gatherRange(column: Uint8Array, index: Uint32Array, start: number, end: number, gathered: Uint8Array): number {
   let lowest = MISSING_BIN;
   let highest = 0;
   let missing = 0;
   for (let i = start; i < end; i++) {
     const bin = column[index[i]];
+    gathered[i] = bin;
     const isMissing = (bin + 1) >>> 8;
     // The missing bin (255) counts as 0 for the highest present bin; it never lowers the lowest.
     const value = bin - isMissing * MISSING_BIN;
@@ -725,8 +773,7 @@ function binRange(column: Uint8Array, index: Uint32Array, start: number, end: nu
 // branches: a random cut sends rows left and right unpredictably.
 
 function cutTwoClasses(
-  column: Uint8Array,
-  index: Uint32Array,
+  gathered: Uint8Array,
   start: number,
   end: number,
   channel: Int32Array,
@@ -743,7 +790,7 @@ function cutTwoClasses(
   let missingCount = 0;
   let missingSecond = 0;
   for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
+    const bin = gathered[i];
     const isLeft = (bin - threshold - 1) >>> 31;
     const isMissing = (bin + 1) >>> 8;
     const c = count[i];
@@ -764,8 +811,7 @@ function cutTwoClasses(
 }
 
 function cutTwoClassesUnit(
-  column: Uint8Array,
-  index: Uint32Array,
+  gathered: Uint8Array,
   start: number,
   end: number,
   channel: Int32Array,
@@ -779,7 +825,7 @@ function cutTwoClassesUnit(
   let missingRows = 0;
   let missingSecond = 0;
   for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
+    const bin = gathered[i];
     const isLeft = (bin - threshold - 1) >>> 31;
     const isMissing = (bin + 1) >>> 8;
     const second = channel[i] - 1;
@@ -796,9 +842,35 @@ function cutTwoClassesUnit(
   tally[1] = missingRows;
 }
 
+/** cutTwoClassesUnit for a node without missing values on the feature. */
+function cutTwoClassesUnitComplete(
+  gathered: Uint8Array,
+  start: number,
+  end: number,
+  channel: Int32Array,
+  threshold: number,
+  left: Float64Array,
+  missing: Float64Array,
+  tally: Float64Array,
+): void {
+  let leftRows = 0;
+  let leftSecond = 0;
+  const limit = threshold + 1;
+  for (let i = start; i < end; i++) {
+    const isLeft = (gathered[i] - limit) >>> 31;
+    leftRows += isLeft;
+    leftSecond += isLeft & (channel[i] - 1);
+  }
+  left[0] = leftRows - leftSecond;
+  left[1] = leftSecond;
+  missing[0] = 0;
+  missing[1] = 0;
+  tally[0] = leftRows;
+  tally[1] = 0;
+}
+
 function cutRegression(
-  column: Uint8Array,
-  index: Uint32Array,
+  gathered: Uint8Array,
   start: number,
   end: number,
   count: Float64Array,
@@ -815,7 +887,7 @@ function cutRegression(
   let missingCount = 0;
   let missingSum = 0;
   for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
+    const bin = gathered[i];
     const isLeft = (bin - threshold - 1) >>> 31;
     const isMissing = (bin + 1) >>> 8;
     const c = count[i];
@@ -836,8 +908,7 @@ function cutRegression(
 }
 
 function cutClasses(
-  column: Uint8Array,
-  index: Uint32Array,
+  gathered: Uint8Array,
   start: number,
   end: number,
   channel: Int32Array,
@@ -851,7 +922,7 @@ function cutClasses(
 ): void {
   sums.fill(0);
   for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
+    const bin = gathered[i];
     // 0 left, 1 right, 2 missing
     const side = (1 - ((bin - threshold - 1) >>> 31)) + ((bin + 1) >>> 8);
     const o = side * stride;

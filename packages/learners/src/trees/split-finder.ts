@@ -28,6 +28,8 @@ export class SplitFinder {
 
   // Best split so far in the current node.
   found = false;
+  /** Counts every new best (callers compare it before and after `considerCut`). */
+  updates = 0;
   score = -Infinity;
   feature = -1;
   categorical = false;
@@ -180,6 +182,7 @@ export class SplitFinder {
       const score = this.proxy(left) + this.proxy(right);
       if (!(score > this.score)) continue;
       this.found = true;
+      this.updates++;
       this.score = score;
       this.feature = feature;
       this.categorical = categorical;
