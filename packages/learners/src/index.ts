@@ -1,2 +1,4 @@
 export * from "./learner.js";
 export * from "./binning/bin-mapper.js";
+export * from "./params.js";
+export * from "./trees/index.js";

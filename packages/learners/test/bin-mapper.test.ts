@@ -37,3 +37,45 @@ describe("quantile binning", () => {
     expect(Array.from(binned.bins[0])).toEqual([0, 1, 0, MISSING_BIN]);
   });
 });
+
+describe("quantile binning edges", () => {
+  /** The edges by definition, from a plain ascending sort (the mapper sorts by radix). */
+  function expectedEdges(values: number[], maxBins: number): number[] {
+    const sorted = values.filter((v) => !Number.isNaN(v)).sort((a, b) => a - b);
+    const distinct = sorted.filter((v, i) => i === 0 || v !== sorted[i - 1]);
+    const edges: number[] = [];
+    if (distinct.length <= maxBins) {
+      for (let i = 0; i + 1 < distinct.length; i++) edges.push((distinct[i] + distinct[i + 1]) / 2);
+    } else {
+      let previous = -Infinity;
+      for (let b = 1; b < maxBins; b++) {
+        const q = sorted[Math.floor((b * sorted.length) / maxBins)];
+        if (q <= previous) continue;
+        const next = sorted.find((v) => v > q);
+        if (next === undefined) break;
+        const edge = (q + next) / 2;
+        if (edge > previous) edges.push(edge);
+        previous = next;
+      }
+    }
+    return [...edges, Infinity];
+  }
+
+  it("places edges at the quantiles of the sorted training values, negatives, ties and float32 values included", () => {
+    let state = 12345;
+    const next = () => (state = (state * 1103515245 + 12345) % 2 ** 31) / 2 ** 31;
+    const cases: number[][] = [
+      Array.from({ length: 5000 }, () => (next() - 0.5) * 1e6),
+      Array.from({ length: 5000 }, () => Math.fround((next() - 0.7) * 3)),
+      Array.from({ length: 5000 }, () => Math.round((next() - 0.5) * 40) / 4),
+      Array.from({ length: 3000 }, (_, i) => (i % 7 === 0 ? NaN : i % 5 === 0 ? -Infinity : (next() - 0.5) * 1e-300)),
+    ];
+    for (const values of cases) {
+      for (const maxBins of [255, 16]) {
+        const mapper = fitBinMapper({ columns: [numeric("x", values)], rows: allRows(values.length) }, maxBins);
+        const feature = mapper.features[0];
+        expect(feature.kind === "numeric" && Array.from(feature.upperEdges)).toEqual(expectedEdges(values, maxBins));
+      }
+    }
+  });
+});

@@ -61,27 +61,28 @@ export function fitBinMapper(view: TableView, maxBins: number = MAX_VALUE_BINS, 
     for (let i = 0; i < EDGE_SAMPLE_ROWS; i++) picked[i] = rows[sampler.int(rows.length)];
     rows = picked;
   }
+  const scratch = new RadixScratch(rows.length);
   const features = view.columns.map((column): FeatureBins => {
     if (column.kind === "categorical") return fitCategoricalBins(column.codes, column.vocabulary.length, view.rows, maxBins);
-    return { kind: "numeric", upperEdges: numericEdges(column.values, rows, maxBins) };
+    return { kind: "numeric", upperEdges: numericEdges(column.values, rows, maxBins, scratch) };
   });
   return { features };
 }
 
-function numericEdges(values: Float32Array | Float64Array, rows: Uint32Array, maxBins: number): Float64Array {
-  const present = new Float64Array(rows.length);
+function numericEdges(values: Float32Array | Float64Array, rows: Uint32Array, maxBins: number, scratch: RadixScratch): Float64Array {
+  const present = scratch.values;
   let m = 0;
   for (let i = 0; i < rows.length; i++) {
     const v = values[rows[i]];
     if (!Number.isNaN(v)) present[m++] = v;
   }
-  const sorted = present.subarray(0, m).sort();
-  const distinct: number[] = [];
-  for (let i = 0; i < m; i++) if (i === 0 || sorted[i] !== sorted[i - 1]) distinct.push(sorted[i]);
+  const sorted = sortValues(present.subarray(0, m), scratch);
+  let distinct = 0;
+  for (let i = 0; i < m && distinct <= maxBins; i++) if (i === 0 || sorted[i] !== sorted[i - 1]) distinct++;
   const edges: number[] = [];
-  if (distinct.length <= maxBins) {
+  if (distinct <= maxBins) {
     // One bin per distinct value; cut half-way between neighbours.
-    for (let i = 0; i + 1 < distinct.length; i++) edges.push((distinct[i] + distinct[i + 1]) / 2);
+    for (let i = 1; i < m; i++) if (sorted[i] !== sorted[i - 1]) edges.push((sorted[i - 1] + sorted[i]) / 2);
   } else {
     // Quantile cuts over the sorted (not distinct) values, then half-way to the next distinct value.
     let previous = -Infinity;
@@ -97,6 +98,73 @@ function numericEdges(values: Float32Array | Float64Array, rows: Uint32Array, ma
   }
   edges.push(Infinity);
   return Float64Array.from(edges);
+}
+
+/** Buffers of one fitBinMapper call, reused for every feature. */
+class RadixScratch {
+  readonly values: Float64Array;
+  readonly high: Uint32Array;
+  readonly low: Uint32Array;
+  readonly highOut: Uint32Array;
+  readonly lowOut: Uint32Array;
+  readonly counts = new Uint32Array(1 << 16);
+  constructor(rows: number) {
+    this.values = new Float64Array(rows);
+    this.high = new Uint32Array(rows);
+    this.low = new Uint32Array(rows);
+    this.highOut = new Uint32Array(rows);
+    this.lowOut = new Uint32Array(rows);
+  }
+}
+
+/**
+ * Sorts finite or infinite doubles in place, ascending (−0 before +0, as TypedArray sort does):
+ * an LSD radix sort over 16-bit digits of the IEEE-754 bits, with the sign bit flipped (and all
+ * bits of negatives inverted) so unsigned order is numeric order. Digits that are the same for
+ * every value are skipped; values read from float32 columns have two such digits.
+ */
+function sortValues(values: Float64Array, scratch: RadixScratch): Float64Array {
+  const n = values.length;
+  const words = new Uint32Array(values.buffer, values.byteOffset, n * 2);
+  let high = scratch.high;
+  let low = scratch.low;
+  let highOut = scratch.highOut;
+  let lowOut = scratch.lowOut;
+  // Little-endian: word 2i is the low half of value i.
+  for (let i = 0; i < n; i++) {
+    const h = words[2 * i + 1];
+    const negative = h >>> 31 === 1;
+    high[i] = negative ? ~h >>> 0 : (h | 0x80000000) >>> 0;
+    low[i] = negative ? ~words[2 * i] >>> 0 : words[2 * i];
+  }
+  const counts = scratch.counts;
+  for (let pass = 0; pass < 4; pass++) {
+    const keys = pass < 2 ? low : high;
+    const shift = (pass & 1) * 16;
+    counts.fill(0);
+    for (let i = 0; i < n; i++) counts[(keys[i] >>> shift) & 0xffff]++;
+    if (n === 0 || counts[(keys[0] >>> shift) & 0xffff] === n) continue;
+    let sum = 0;
+    for (let d = 0; d < counts.length; d++) {
+      const c = counts[d];
+      counts[d] = sum;
+      sum += c;
+    }
+    for (let i = 0; i < n; i++) {
+      const at = counts[(keys[i] >>> shift) & 0xffff]++;
+      highOut[at] = high[i];
+      lowOut[at] = low[i];
+    }
+    [high, highOut] = [highOut, high];
+    [low, lowOut] = [lowOut, low];
+  }
+  for (let i = 0; i < n; i++) {
+    const h = high[i];
+    const negative = h >>> 31 === 0;
+    words[2 * i + 1] = negative ? ~h >>> 0 : h & 0x7fffffff;
+    words[2 * i] = negative ? ~low[i] >>> 0 : low[i];
+  }
+  return values;
 }
 
 function nextLarger(sorted: Float64Array, value: number): number | undefined {
@@ -141,13 +209,15 @@ export function numericBin(upperEdges: Float64Array, value: number): number {
 /** Applies a fitted mapper to the rows of a view (training rows or rows to predict). */
 export function binRows(mapper: BinMapper, view: TableView): BinnedMatrix {
   const n = view.rows.length;
+  const padded = new Float64Array(256);
   const bins = mapper.features.map((feature, f) => {
     const column = view.columns[f];
     const out = new Uint8Array(n);
     if (feature.kind === "numeric") {
       if (column.kind === "categorical") throw new TypeError(`feature ${column.name}: fitted as numeric, given categorical`);
-      const values = column.values;
-      for (let r = 0; r < n; r++) out[r] = numericBin(feature.upperEdges, values[view.rows[r]]);
+      padded.fill(Infinity);
+      padded.set(feature.upperEdges);
+      binNumericRows(padded, column.values, view.rows, out);
     } else {
       if (column.kind !== "categorical") throw new TypeError(`feature ${column.name}: fitted as categorical, given numeric`);
       const codes = column.codes;
@@ -161,6 +231,27 @@ export function binRows(mapper: BinMapper, view: TableView): BinnedMatrix {
   });
   const binCounts = Uint16Array.from(mapper.features, binCount);
   return { rowCount: n, bins, binCounts, categorical: mapper.features.map((f) => f.kind === "categorical") };
+}
+
+/**
+ * numericBin for many rows: a fixed eight-step binary search over the edges padded with
+ * +Infinity to 256, each step adding its width when the value lies above the probed edge.
+ * Steps are chosen by arithmetic rather than branches, which random values mispredict.
+ */
+function binNumericRows(edges: Float64Array, values: Float32Array | Float64Array, rows: Uint32Array, out: Uint8Array): void {
+  for (let r = 0; r < rows.length; r++) {
+    const v = values[rows[r]];
+    let bin = 0;
+    bin += 128 & -(edges[bin + 127] < v);
+    bin += 64 & -(edges[bin + 63] < v);
+    bin += 32 & -(edges[bin + 31] < v);
+    bin += 16 & -(edges[bin + 15] < v);
+    bin += 8 & -(edges[bin + 7] < v);
+    bin += 4 & -(edges[bin + 3] < v);
+    bin += 2 & -(edges[bin + 1] < v);
+    bin += 1 & -(edges[bin] < v);
+    out[r] = Number.isNaN(v) ? MISSING_BIN : bin;
+  }
 }
 
 /** JSON form of a mapper (edges as number arrays; +Infinity written as null). */
