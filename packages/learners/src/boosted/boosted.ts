@@ -2,7 +2,7 @@ import type { Rng, TableView, Task, TrainView } from "@nightshift/core";
 import { type BinMapper, binRows, fitBinMapper } from "../binning/bin-mapper.js";
 import { FitError, type Learner } from "../learner.js";
 import { TreeGrower } from "./grow-tree.js";
-import { histogramLayout } from "./histogram.js";
+import { histogramIndex, histogramLayout } from "./histogram.js";
 import { boostedFromJSON, boostedToJSON } from "./model-json.js";
 import { binaryLogLoss, type Objective, softmaxLoss, squaredError } from "./objectives.js";
 import { type BoostedParams, BoostedParamsSchema } from "./params.js";
@@ -89,17 +89,13 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
   const valueBins = binned.binCounts;
   const features = binned.bins.length;
   const categorical = new Uint8Array(features);
-  const rowBins = new Uint8Array(n * features);
   const usable: number[] = [];
   for (let f = 0; f < features; f++) {
     categorical[f] = binned.categorical[f] ? 1 : 0;
     // Local bins: the missing values of feature f go to bin valueBins[f], right after its value bins.
     const column = binned.bins[f];
     const missing = valueBins[f];
-    for (let i = 0; i < n; i++) {
-      if (column[i] > missing) column[i] = missing;
-      rowBins[i * features + f] = column[i];
-    }
+    for (let i = 0; i < n; i++) if (column[i] > missing) column[i] = missing;
     if (takesTwoBins(column, fitPositions)) usable.push(f);
   }
   if (usable.length === 0) throw new FitError("boosted", "no usable feature: every feature is constant or missing on the training rows");
@@ -119,7 +115,7 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
 
   const layout = histogramLayout(valueBins);
   const grower = new TreeGrower(
-    { rowBins, columnBins: binned.bins, layout, categorical, rowCount: n },
+    { columnBins: binned.bins, histogramIndex: histogramIndex(layout, binned.bins, n), layout, categorical, rowCount: n },
     {
       maxLeaves: params.leaves,
       maxDepth: params.depth ?? Infinity,

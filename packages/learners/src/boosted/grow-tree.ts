@@ -5,13 +5,13 @@ import { BITSET_WORDS, CategoryScratch, findBestSplit, leafWeight, type SplitRul
 export const HISTOGRAM_POOL_BYTES = 256 * 1024 * 1024;
 
 /**
- * Training rows binned for growing, row-major: `rowBins[r * features + f]` is the local bin of
- * position r on feature f (missing values in bin valueBins[f]).
+ * Training rows binned for growing. `columnBins[f][r]` is the local bin of position r on feature
+ * f (missing values in bin valueBins[f]), read when partitioning a node on one feature;
+ * `histogramIndex` is the same information laid out for building histograms (histogram.ts).
  */
 export interface GrowingData {
-  readonly rowBins: Uint8Array;
-  /** The same bins column by column (`columnBins[f][r]`), for partitioning a node on one feature. */
   readonly columnBins: readonly Uint8Array[];
+  readonly histogramIndex: Uint16Array | Uint32Array;
   readonly layout: HistogramLayout;
   readonly categorical: Uint8Array;
   readonly rowCount: number;
@@ -283,7 +283,7 @@ export class TreeGrower {
       this.pool,
       slot * data.layout.length,
       data.layout,
-      data.rowBins,
+      data.histogramIndex,
       features,
       featureCount,
       this.rows,

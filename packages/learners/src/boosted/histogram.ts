@@ -25,18 +25,33 @@ export function histogramLayout(valueBins: Uint16Array): HistogramLayout {
 }
 
 /**
+ * Where each (row, feature) lands in a histogram: `index[r * features + f]` is the number of its
+ * (Σg, Σh, count) triple, i.e. offset[f] / 3 + local bin. Row-major, so a row's entries share a
+ * cache line; 16-bit when every triple number fits (up to about 256 features of 255 bins).
+ */
+export function histogramIndex(layout: HistogramLayout, columnBins: readonly Uint8Array[], rowCount: number): Uint16Array | Uint32Array {
+  const width = layout.features;
+  const index = layout.length / 3 <= 0xffff ? new Uint16Array(rowCount * width) : new Uint32Array(rowCount * width);
+  for (let f = 0; f < width; f++) {
+    const column = columnBins[f];
+    const first = layout.offset[f] / 3;
+    for (let r = 0; r < rowCount; r++) index[r * width + f] = first + column[r];
+  }
+  return index;
+}
+
+/**
  * Accumulates the histogram of rows `rows[start..end)` over the listed features into
- * `hist[base ..]`. Bins are row-major (`rowBins[r * width + f]` is the local bin of row r on
- * feature f): each row's gradient pair is read once and its bins share a cache line, which
- * measured faster here than per-feature passes over gathered gradients. Two rows per step
- * keep two independent chains of histogram updates in flight. With a constant hessian
- * (squared error) Σh equals the count and is filled in afterwards.
+ * `hist[base ..]`. Row by row: each row's gradient pair is read once and its histogram entries
+ * come from one cache line of `index`, which measured faster here than per-feature passes over
+ * gathered gradients; four rows per step keep four independent chains of updates in flight.
+ * With a constant hessian (squared error) Σh equals the count and is filled in afterwards.
  */
 export function buildHistogram(
   hist: Float64Array,
   base: number,
   layout: HistogramLayout,
-  rowBins: Uint8Array,
+  index: Uint16Array | Uint32Array,
   features: Int32Array,
   featureCount: number,
   rows: Uint32Array,
@@ -53,38 +68,53 @@ export function buildHistogram(
     const from = base + offset[features[j]];
     hist.fill(0, from, from + 3 * (valueBins[features[j]] + 1));
   }
+  const all = featureCount === width;
   let i = start;
-  for (; i + 1 < end; i += 2) {
-    const r = rows[i];
-    const s = rows[i + 1];
-    const gr = grad[r];
-    const hr = hess[r];
-    const gs = grad[s];
-    const hs = hess[s];
-    const br = r * width;
-    const bs = s * width;
+  for (; i + 3 < end; i += 4) {
+    const r0 = rows[i];
+    const r1 = rows[i + 1];
+    const r2 = rows[i + 2];
+    const r3 = rows[i + 3];
+    const g0 = grad[r0];
+    const h0 = hess[r0];
+    const g1 = grad[r1];
+    const h1 = hess[r1];
+    const g2 = grad[r2];
+    const h2 = hess[r2];
+    const g3 = grad[r3];
+    const h3 = hess[r3];
+    const b0 = r0 * width;
+    const b1 = r1 * width;
+    const b2 = r2 * width;
+    const b3 = r3 * width;
     for (let j = 0; j < featureCount; j++) {
-      const f = features[j];
-      const from = base + offset[f];
-      const a = from + 3 * rowBins[br + f];
-      hist[a] += gr;
-      hist[a + 1] += hr;
-      hist[a + 2] += 1;
-      const b = from + 3 * rowBins[bs + f];
-      hist[b] += gs;
-      hist[b + 1] += hs;
-      hist[b + 2] += 1;
+      const f = all ? j : features[j];
+      let at = base + 3 * index[b0 + f];
+      hist[at] += g0;
+      hist[at + 1] += h0;
+      hist[at + 2] += 1;
+      at = base + 3 * index[b1 + f];
+      hist[at] += g1;
+      hist[at + 1] += h1;
+      hist[at + 2] += 1;
+      at = base + 3 * index[b2 + f];
+      hist[at] += g2;
+      hist[at + 1] += h2;
+      hist[at + 2] += 1;
+      at = base + 3 * index[b3 + f];
+      hist[at] += g3;
+      hist[at + 1] += h3;
+      hist[at + 2] += 1;
     }
   }
-  if (i < end) {
+  for (; i < end; i++) {
     const r = rows[i];
-    const br = r * width;
+    const b = r * width;
     for (let j = 0; j < featureCount; j++) {
-      const f = features[j];
-      const a = base + offset[f] + 3 * rowBins[br + f];
-      hist[a] += grad[r];
-      hist[a + 1] += hess[r];
-      hist[a + 2] += 1;
+      const at = base + 3 * index[b + features[j]];
+      hist[at] += grad[r];
+      hist[at + 1] += hess[r];
+      hist[at + 2] += 1;
     }
   }
   if (constantHessian) {
