@@ -30,9 +30,9 @@ describe("gradient histograms", () => {
     const features = Int32Array.from([0, 1, 2]);
     const rows = Uint32Array.from({ length: 500 }, (_, i) => i);
     const hist = new Float64Array(3 * layout.length);
-    buildHistogram(hist, 0, layout, data.histogramIndex, features, 3, rows, 0, 500, data.grad, data.hess, false);
-    buildHistogram(hist, layout.length, layout, data.histogramIndex, features, 3, rows, 0, 180, data.grad, data.hess, false);
-    buildHistogram(hist, 2 * layout.length, layout, data.histogramIndex, features, 3, rows, 180, 500, data.grad, data.hess, false);
+    buildHistogram(hist, 0, layout, data.histogramIndex, features, 3, rows, 0, 500, data.grad, data.hess, true, false);
+    buildHistogram(hist, layout.length, layout, data.histogramIndex, features, 3, rows, 0, 180, data.grad, data.hess, true, false);
+    buildHistogram(hist, 2 * layout.length, layout, data.histogramIndex, features, 3, rows, 180, 500, data.grad, data.hess, true, false);
     subtractHistogram(hist, 0, layout.length, layout, features, 3);
     for (let i = 0; i < layout.length; i++) expect(hist[i]).toBeCloseTo(hist[2 * layout.length + i], 9);
   });
@@ -57,6 +57,23 @@ describe("leaf-wise tree growth", () => {
     expect(tiny.nodeFeature).toEqual(full.nodeFeature);
     expect(tiny.nodeThreshold).toEqual(full.nodeThreshold);
     for (let n = 0; n < full.nodeCount; n++) expect(tiny.nodeValue[n]).toBeCloseTo(full.nodeValue[n], 9);
+  });
+
+  it("finds the same splits without row counts in its histograms when one row per leaf is enough", () => {
+    // With h = 1 for every row, the squared-error path keeps counts (Σh) and the other does not.
+    const data = randomData(2000, [16, 40, 255, 3], 4);
+    const ones = new Float64Array(2000).fill(1);
+    const trees = [true, false].map((constantHessian) => {
+      const grower = new TreeGrower(data, { ...limits, minLeaf: 1 }, constantHessian);
+      for (let i = 0; i < 2000; i++) grower.rows[i] = i;
+      grower.grow(data.grad, ones, 2000, Int32Array.from([0, 1, 2, 3]), 4);
+      return grower;
+    });
+    expect(trees[1].nodeCount).toBe(trees[0].nodeCount);
+    expect(trees[1].nodeFeature).toEqual(trees[0].nodeFeature);
+    expect(trees[1].nodeThreshold).toEqual(trees[0].nodeThreshold);
+    expect(trees[1].nodeMissingLeft).toEqual(trees[0].nodeMissingLeft);
+    expect(trees[1].nodeValue).toEqual(trees[0].nodeValue);
   });
 
   it("partitions rows so each leaf owns exactly the rows that walk to it", () => {

@@ -119,10 +119,12 @@ describe("boosted fitting", () => {
     // Positives have no reading; negatives have readings spread over the whole range.
     const x = y.map((label) => (label === 1 ? NaN : rng.normal()));
     const view = trainView([numeric("x", x)], classes(y));
-    const model = boostedLearner.fit(view, params({ rounds: 20, leaves: 4, min_leaf: 5 }), createRng(1));
-    const p = boostedLearner.predict(model, { columns: [numeric("x", [NaN, -1, 0, 1])], rows: allRows(4) });
-    expect(p[1]).toBeGreaterThan(0.9);
-    for (const i of [1, 2, 3]) expect(p[2 * i + 1]).toBeLessThan(0.1);
+    for (const minLeaf of [5, 1]) {
+      const model = boostedLearner.fit(view, params({ rounds: 20, leaves: 4, min_leaf: minLeaf }), createRng(1));
+      const p = boostedLearner.predict(model, { columns: [numeric("x", [NaN, -1, 0, 1])], rows: allRows(4) });
+      expect(p[1]).toBeGreaterThan(0.9);
+      for (const i of [1, 2, 3]) expect(p[2 * i + 1]).toBeLessThan(0.1);
+    }
   });
 
   it("sends missing values to the child with more rows when a split saw none", () => {

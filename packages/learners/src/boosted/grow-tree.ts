@@ -72,12 +72,19 @@ export class TreeGrower {
   /** Depth of the deepest leaf of the last tree. */
   depth = 0;
 
+  /** Whether histograms carry row counts (needed for min_leaf > 1; squared error gets them free). */
+  private readonly counts: boolean;
+  /** The split rules as the search applies them (min_leaf 0 when histograms have no counts). */
+  private readonly rules: SplitRules;
+
   constructor(
     private readonly data: GrowingData,
     private readonly limits: GrowingLimits,
     private readonly constantHessian: boolean,
     poolBytes: number = HISTOGRAM_POOL_BYTES,
   ) {
+    this.counts = constantHessian || limits.minLeaf > 1;
+    this.rules = { l2: limits.l2, minLeaf: this.counts ? limits.minLeaf : 0, minHessian: limits.minHessian, minGain: limits.minGain };
     const n = data.rowCount;
     const leaves = limits.maxLeaves;
     this.rows = new Uint32Array(n);
@@ -207,16 +214,21 @@ export class TreeGrower {
     const spill = this.spill;
     let l = start;
     let r = 0;
+    let missing = 0;
     for (let i = start; i < end; i++) {
       const row = rows[i];
       // Branch-free: the row is written to both places and only one cursor moves.
-      const goes = goesLeft[column[row]];
+      const b = column[row];
+      const goes = goesLeft[b];
       rows[l] = row;
       spill[r] = row;
       l += goes;
       r += 1 - goes;
+      missing += +(b === bins);
     }
     for (let i = 0; i < r; i++) rows[l + i] = spill[i];
+    // A node that saw no missing values sends them, at predict time, to the child with more rows.
+    if (missing === 0) this.nodeMissingLeft[node] = l - start >= r ? 1 : 0;
 
     const right = this.leafCount++;
     const depth = this.leafDepth[parent] + 1;
@@ -291,6 +303,7 @@ export class TreeGrower {
       end,
       grad,
       hess,
+      this.counts,
       this.constantHessian,
     );
   }
@@ -308,7 +321,7 @@ export class TreeGrower {
       this.leafGrad[leaf],
       this.leafHess[leaf],
       this.leafEnd[leaf] - this.leafStart[leaf],
-      this.limits,
+      this.rules,
       this.splits,
       leaf,
       this.scratch,

@@ -59,7 +59,11 @@ export function leafWeight(gradSum: number, hessSum: number, l2: number): number
  * (gain −∞ when no split satisfies the rules). Gain (Chen & Guestrin 2016, eq. 7):
  *   ½[G_L²/(H_L+λ) + G_R²/(H_R+λ) − G²/(H+λ)] − γ.
  * Missing values are tried on both sides and the better side kept (sparsity-aware split
- * finding); when the leaf has no missing values they follow the child with more rows.
+ * finding); the grower sends them to the child with more rows when the leaf has none.
+ *
+ * Row counts are read from the histogram only when `rules.minLeaf` > 0; a histogram built
+ * without counts is searched with minLeaf 0, which loses nothing when the caller's minimum is
+ * one row: an empty child has G = H = 0, so its split gains exactly 0 and is never taken.
  *
  * Categorical features use the gradient-ordered split: the leaf's categories are sorted by
  * G_c/(H_c+λ) and only prefixes of that order are scanned. For squared error this finds the
@@ -101,23 +105,23 @@ export function findBestSplit(
     const gMissing = hist[missing];
     const hMissing = hist[missing + 1];
     const cMissing = hist[missing + 2];
+    const hasMissing = cMissing > 0 || hMissing !== 0 || gMissing !== 0;
     let score = -Infinity;
     let threshold = 0;
     let missingLeft = 0;
     let gradLeft = 0;
     let hessLeft = 0;
-    let countLeft = 0;
     let gl = 0;
     let hl = 0;
     let cl = 0;
 
-    // A leaf without missing values sends them, at predict time, to the child with more rows.
     if (categoricalFeature[f] === 0) {
       for (let t = 0; t < bins; t++) {
         const at = from + 3 * t;
         const c = hist[at + 2];
-        // An empty bin gives the same partition as the threshold before it.
-        if (c === 0) continue;
+        // An empty bin gives the same partition as the threshold before it (without row counts,
+        // a bin with no gradient and no hessian is as good as empty).
+        if (c === 0 && hist[at + 1] === 0 && hist[at] === 0) continue;
         gl += hist[at];
         hl += hist[at + 1];
         cl += c;
@@ -133,11 +137,10 @@ export function findBestSplit(
               missingLeft = 0;
               gradLeft = gl;
               hessLeft = hl;
-              countLeft = cl;
             }
           }
         }
-        if (cMissing > 0 && rowCount - cl - cMissing >= minLeaf && cl + cMissing >= minLeaf) {
+        if (hasMissing && rowCount - cl - cMissing >= minLeaf && cl + cMissing >= minLeaf) {
           const glm = gl + gMissing;
           const hlm = hl + hMissing;
           const hr = hessSum - hlm;
@@ -150,7 +153,6 @@ export function findBestSplit(
               missingLeft = 1;
               gradLeft = glm;
               hessLeft = hlm;
-              countLeft = cl + cMissing;
             }
           }
         }
@@ -159,7 +161,7 @@ export function findBestSplit(
         bestScore = score;
         bestFeature = f;
         bestThreshold = threshold;
-        bestMissingLeft = cMissing > 0 ? missingLeft : countLeft >= rowCount - countLeft ? 1 : 0;
+        bestMissingLeft = missingLeft;
         bestGradLeft = gradLeft;
         bestHessLeft = hessLeft;
         bestCategorical = 0;
@@ -170,7 +172,7 @@ export function findBestSplit(
       let m = 0;
       for (let b = 0; b < bins; b++) {
         const at = from + 3 * b;
-        if (hist[at + 2] === 0) continue;
+        if (hist[at + 2] === 0 && hist[at + 1] === 0 && hist[at] === 0) continue;
         // Number.MIN_VALUE keeps the ratio's sign when H+λ is 0.
         const k = hist[at] / (hist[at + 1] + l2 + Number.MIN_VALUE);
         let i = m++;
@@ -201,11 +203,10 @@ export function findBestSplit(
               missingLeft = 0;
               gradLeft = gl;
               hessLeft = hl;
-              countLeft = cl;
             }
           }
         }
-        if (cMissing > 0 && rowCount - cl - cMissing >= minLeaf && cl + cMissing >= minLeaf) {
+        if (hasMissing && rowCount - cl - cMissing >= minLeaf && cl + cMissing >= minLeaf) {
           const glm = gl + gMissing;
           const hlm = hl + hMissing;
           const hr = hessSum - hlm;
@@ -218,7 +219,6 @@ export function findBestSplit(
               missingLeft = 1;
               gradLeft = glm;
               hessLeft = hlm;
-              countLeft = cl + cMissing;
             }
           }
         }
@@ -227,7 +227,7 @@ export function findBestSplit(
         bestScore = score;
         bestFeature = f;
         bestThreshold = prefix;
-        bestMissingLeft = cMissing > 0 ? missingLeft : countLeft >= rowCount - countLeft ? 1 : 0;
+        bestMissingLeft = missingLeft;
         bestGradLeft = gradLeft;
         bestHessLeft = hessLeft;
         bestCategorical = 1;
