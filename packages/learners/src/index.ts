@@ -1,2 +1,3 @@
 export * from "./learner.js";
 export * from "./binning/bin-mapper.js";
+export * from "./linear/index.js";
