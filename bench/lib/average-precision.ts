@@ -1,30 +1,25 @@
 /**
- * Average precision as scikit-learn defines it (METHODS.md §5): the sum over distinct score
- * thresholds of (R_n − R_{n−1})·P_n, with tied scores forming one threshold, no interpolation.
- * `scores[r * width + column]` is the score of row r; labels are 1 for the positive class.
+ * Average precision as scikit-learn defines it (METHODS.md §5): scores sorted descending, tied
+ * scores form one threshold, AP = Σ (R_n − R_{n−1})·P_n without interpolation.
  */
-export function averagePrecision(scores: Float64Array, width: number, column: number, labels: ArrayLike<number>): number {
-  const n = labels.length;
-  const score = new Float64Array(n);
-  for (let r = 0; r < n; r++) score[r] = scores[r * width + column];
-  const order = Uint32Array.from({ length: n }, (_, i) => i).sort((a, b) => score[b] - score[a]);
+export function averagePrecision(positive: ArrayLike<number>, scores: ArrayLike<number>): number {
+  const order = Array.from({ length: scores.length }, (_, i) => i).sort((a, b) => scores[b] - scores[a]);
   let positives = 0;
-  for (let r = 0; r < n; r++) if (labels[r] === 1) positives++;
-  let truePositives = 0;
+  for (let i = 0; i < positive.length; i++) if (positive[i]) positives++;
+  let tp = 0;
   let seen = 0;
+  let ap = 0;
   let previousRecall = 0;
-  let sum = 0;
-  for (let i = 0; i < n; ) {
-    let j = i;
-    while (j < n && score[order[j]] === score[order[i]]) {
-      if (labels[order[j]] === 1) truePositives++;
+  for (let i = 0; i < order.length; ) {
+    const score = scores[order[i]];
+    while (i < order.length && scores[order[i]] === score) {
+      if (positive[order[i]]) tp++;
       seen++;
-      j++;
+      i++;
     }
-    const recall = truePositives / positives;
-    sum += (recall - previousRecall) * (truePositives / seen);
+    const recall = tp / positives;
+    ap += (recall - previousRecall) * (tp / seen);
     previousRecall = recall;
-    i = j;
   }
-  return sum;
+  return ap;
 }

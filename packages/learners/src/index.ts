@@ -5,3 +5,4 @@ export * from "./registry.js";
 export * from "./trees/index.js";
 export * from "./boosted/index.js";
 export * from "./linear/index.js";
+export * from "./knn/index.js";

@@ -3,6 +3,7 @@ import { z } from "zod";
 import { FitError, type Learner, type ModelJson } from "../learner.js";
 import { designMatrix, DesignEncodingSchema, fitDesign, type DesignEncoding } from "../preprocess/design-matrix.js";
 import { rowWeights } from "./class-weights.js";
+import { createLinearKernels } from "./linear-kernels.js";
 import { fitLogistic } from "./logistic.js";
 import { multiplyRows } from "./matrix-products.js";
 import { LogisticParamsSchema, type LogisticParams } from "./params.js";
@@ -47,12 +48,12 @@ const LinearModelJsonSchema = z
 export function fitLinear(view: TrainView, params: LogisticParams): LinearModel {
   const encoding = fitDesign(view, { missingIndicators: params.missing_indicators });
   if (encoding.width === 0) throw new FitError("logistic", "no usable feature: every feature column is constant or missing in the training rows");
-  const x = designMatrix(encoding, view);
   const n = view.rows.length;
   const p = encoding.width;
   const target = view.target;
 
   if (view.task === "regression") {
+    const x = designMatrix(encoding, view);
     if (target.kind !== "values") throw new TypeError("logistic: a regression task needs a numeric target");
     const y = new Float64Array(n);
     for (let i = 0; i < n; i++) {
@@ -81,8 +82,11 @@ export function fitLinear(view: TrainView, params: LogisticParams): LinearModel 
   const classOf = new Int32Array(n);
   for (let i = 0; i < n; i++) classOf[i] = indexOfLabel[target.codes[view.rows[i]]];
 
+  const scoreCount = present.length === 2 ? 1 : present.length;
+  const design = createLinearKernels(n, p, scoreCount, 3);
+  designMatrix(encoding, view, { out: design.x, stride: design.stride });
   const fit = fitLogistic(
-    { x, rows: n, width: p, classOf, classCount: present.length, rowWeights: rowWeights(classOf, present.length, params.class_weight), penalty: params.l2 / n },
+    { design, rows: n, width: p, classOf, classCount: present.length, rowWeights: rowWeights(classOf, present.length, params.class_weight), penalty: params.l2 / n },
     { maxIterations: params.max_iterations, tolerance: params.tolerance },
   );
   const { iterations, converged, gradientNorm, value } = fit.optimisation;

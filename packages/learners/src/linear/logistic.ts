@@ -1,6 +1,6 @@
 import type { LineFunction } from "./line-search.js";
 import { minimizeLbfgs, type LbfgsResult, type LineObjective } from "./lbfgs.js";
-import { multiplyRows, multiplyTransposed } from "./matrix-products.js";
+import type { LinearKernels } from "./linear-kernels.js";
 
 /**
  * L2-regularised logistic regression (binary) and its multinomial form (softmax over K classes,
@@ -14,8 +14,8 @@ import { multiplyRows, multiplyTransposed } from "./matrix-products.js";
  * not grow with n.
  */
 export interface LogisticProblem {
-  /** Row-major design matrix, `rows` × `width`. */
-  readonly x: Float64Array;
+  /** The design matrix (rows × width) inside its product kernels, with room for three score buffers. */
+  readonly design: LinearKernels;
   readonly rows: number;
   readonly width: number;
   /** Class index per row in 0..classCount-1. */
@@ -67,9 +67,9 @@ abstract class LinearLogLoss implements LineObjective {
     this.size = scoreCount * (problem.width + 1);
     this.theta = new Float64Array(this.size);
     this.direction = new Float64Array(this.size);
-    this.scores = new Float64Array(problem.rows * scoreCount);
-    this.directionScores = new Float64Array(problem.rows * scoreCount);
-    this.residuals = new Float64Array(problem.rows * scoreCount);
+    this.scores = problem.design.buffer(problem.rows * scoreCount);
+    this.directionScores = problem.design.buffer(problem.rows * scoreCount);
+    this.residuals = problem.design.buffer(problem.rows * scoreCount);
   }
 
   /**
@@ -120,7 +120,7 @@ abstract class LinearLogLoss implements LineObjective {
     const { problem, theta, scoreCount, residuals } = this;
     const n = problem.rows;
     const p = problem.width;
-    multiplyTransposed(problem.x, n, p, residuals, scoreCount, gradient);
+    problem.design.multiplyTransposed(residuals, scoreCount, gradient);
     let penalty = 0;
     for (let j = 0; j < scoreCount * p; j++) {
       gradient[j] = gradient[j] / n + problem.penalty * theta[j];
@@ -137,7 +137,7 @@ abstract class LinearLogLoss implements LineObjective {
   private project(parameters: Float64Array, out: Float64Array): void {
     const { problem, scoreCount } = this;
     const p = problem.width;
-    multiplyRows(problem.x, problem.rows, p, parameters.subarray(0, scoreCount * p), parameters.subarray(scoreCount * p), scoreCount, out);
+    problem.design.multiplyRows(parameters.subarray(0, scoreCount * p), parameters.subarray(scoreCount * p), scoreCount, out);
   }
 }
 

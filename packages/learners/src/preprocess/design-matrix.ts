@@ -126,8 +126,12 @@ type ColumnWriter =
 /** Rows filled together, so one block of the row-major output stays in cache while every column writes to it. */
 const ROW_BLOCK = 256;
 
-/** Row-major design matrix (rows of the view × `encoding.width`) of any rows, with the training statistics. */
-export function designMatrix(encoding: DesignEncoding, view: TableView): Float64Array {
+/**
+ * Row-major design matrix (rows of the view × `encoding.width`) of any rows, with the training
+ * statistics. With `into`, the rows are written there `stride` doubles apart (stride ≥ width;
+ * the padding is left as it is) and `into` is returned.
+ */
+export function designMatrix(encoding: DesignEncoding, view: TableView, into?: { readonly out: Float64Array; readonly stride: number }): Float64Array {
   if (view.columns.length !== encoding.columns.length)
     throw new TypeError(`design: fitted on ${encoding.columns.length} feature columns, given ${view.columns.length}`);
   const writers: ColumnWriter[] = [];
@@ -146,8 +150,10 @@ export function designMatrix(encoding: DesignEncoding, view: TableView): Float64
     }
   });
   const n = view.rows.length;
-  const width = encoding.width;
-  const x = new Float64Array(n * width);
+  const width = into?.stride ?? encoding.width;
+  if (width < encoding.width) throw new RangeError(`design: stride ${width} is narrower than the ${encoding.width} design columns`);
+  const x = into?.out ?? new Float64Array(n * width);
+  if (x.length < n * width) throw new RangeError(`design: output holds ${x.length} values, ${n * width} needed`);
   for (let start = 0; start < n; start += ROW_BLOCK) {
     const end = Math.min(n, start + ROW_BLOCK);
     for (const writer of writers) {
