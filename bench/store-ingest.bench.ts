@@ -30,7 +30,7 @@ store.close();
 
 const file = join(dir, "plain.bin");
 start = performance.now();
-for (let i = 0; i < RESULTS; i++) appendFileSync(file, predictions[i % 8]);
+for (let i = 0; i < RESULTS; i++) appendFileSync(file, new Uint8Array(predictions[i % 8].buffer));
 const fileSeconds = (performance.now() - start) / 1000;
 rmSync(dir, { recursive: true, force: true });
 

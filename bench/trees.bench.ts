@@ -13,7 +13,7 @@ import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { createRng } from "@nightshift/core";
 import { extraTreesLearner, forestLearner, parseParams, type TreeEnsembleModel } from "../packages/learners/src/index.js";
-import { averagePrecision } from "./lib/average-precision.js";
+import { averagePrecisionOfColumn } from "./lib/average-precision.js";
 import { loadHypercube, trainViewOf } from "./lib/hypercube.js";
 
 const here = dirname(fileURLToPath(import.meta.url));
@@ -49,7 +49,7 @@ function ours(family: "forest" | "extra_trees") {
   const p = learner.predict(model, { columns: set.columns, rows: set.test });
   const predict_s = (performance.now() - predictStart) / 1000;
   const leaves = model.trees.reduce((sum, t) => sum + (t.nodeCount + 1) / 2, 0) / model.trees.length;
-  return { fit_s, fit_cpu_s: (used.user + used.system) / 1e6, predict_s, ap: averagePrecision(p, 2, 1, testLabels), leaves };
+  return { fit_s, fit_cpu_s: (used.user + used.system) / 1e6, predict_s, ap: averagePrecisionOfColumn(p, 2, 1, testLabels), leaves };
 }
 
 const rows: string[] = [];

@@ -1,25 +1,21 @@
+import { averagePrecision as coreAveragePrecision } from "@nightshift/core";
+
 /**
- * Average precision as scikit-learn defines it (METHODS.md §5): scores sorted descending, tied
- * scores form one threshold, AP = Σ (R_n − R_{n−1})·P_n without interpolation.
+ * Average precision of one probability column of row-major predictions (width columns),
+ * with the project's own metric (checked against scikit-learn in packages/core/test).
  */
-export function averagePrecision(positive: ArrayLike<number>, scores: ArrayLike<number>): number {
-  const order = Array.from({ length: scores.length }, (_, i) => i).sort((a, b) => scores[b] - scores[a]);
-  let positives = 0;
-  for (let i = 0; i < positive.length; i++) if (positive[i]) positives++;
-  let tp = 0;
-  let seen = 0;
-  let ap = 0;
-  let previousRecall = 0;
-  for (let i = 0; i < order.length; ) {
-    const score = scores[order[i]];
-    while (i < order.length && scores[order[i]] === score) {
-      if (positive[order[i]]) tp++;
-      seen++;
-      i++;
-    }
-    const recall = tp / positives;
-    ap += (recall - previousRecall) * (tp / seen);
-    previousRecall = recall;
+export function averagePrecisionOfColumn(scores: Float64Array, width: number, column: number, labels: ArrayLike<number>): number {
+  const rows = labels.length;
+  const positive = new Uint8Array(rows);
+  const values = new Float64Array(rows);
+  for (let i = 0; i < rows; i++) {
+    positive[i] = labels[i] === 1 ? 1 : 0;
+    values[i] = scores[i * width + column];
   }
-  return ap;
+  return coreAveragePrecision(positive, values);
+}
+
+/** Average precision of scores against 0/1 labels. */
+export function averagePrecision(positive: ArrayLike<number>, scores: ArrayLike<number>): number {
+  return coreAveragePrecision(Uint8Array.from(positive), Float64Array.from(scores));
 }

@@ -34,7 +34,8 @@ function meanAndStd(values: readonly number[]): { mean: number | null; std: numb
   let sum = 0;
   for (const v of values) sum += v;
   const mean = sum / values.length;
-  if (values.length === 1) return { mean, std: 0 };
+  // One fold gives no spread to report (a trial pruned after its first fold).
+  if (values.length === 1) return { mean, std: null };
   let squares = 0;
   for (const v of values) squares += (v - mean) ** 2;
   return { mean, std: Math.sqrt(squares / (values.length - 1)) };

@@ -28,7 +28,7 @@ export function createProgressBar(metric: string): { update(p: Progress): void; 
       const payload = {
         trials: `${p.trialsFinished}/${p.trialsPlanned}`,
         rate: p.foldsPerSecond.toFixed(2),
-        best: p.best ? `${p.best.score.toFixed(4)} ${metric} (trial ${p.best.trial})` : "-",
+        best: p.best ? `${metric} ${p.best.score.toFixed(4)} (trial ${p.best.trial})` : "-",
         eta: duration(p.etaSeconds),
       };
       if (!started) {

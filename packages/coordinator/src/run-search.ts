@@ -38,7 +38,7 @@ export interface RunOptions {
   /** Overrides the plan's trial budget (a shortened demo). */
   readonly trials?: number;
   readonly onProgress?: (progress: Progress) => void;
-  readonly onStart?: (info: { runId: string; runDir: string; resumed: boolean; trials: number; folds: number; rows: number }) => void;
+  readonly onStart?: (info: { runId: string; runDir: string; resumed: boolean; trials: number; folds: number; rows: number; metric: string }) => void;
   readonly shouldStop?: () => boolean;
   /** Runs fold jobs somewhere else than on local threads (distributed mode). */
   readonly runner?: (setup: { pack: Uint8Array; foldTests: Uint32Array[]; metric: string }) => JobRunner;
@@ -160,7 +160,7 @@ export async function runSearch(options: RunOptions): Promise<RunResult> {
     store.addTrials(trials.map((t) => ({ trial: t.trial, family: t.family, params: { ...t.params } })));
     store.addEvent(resumed ? "run_resumed" : "run_started", { run: runId, trials: trials.length, folds: foldTests.length });
     store.setMeta("state", "running");
-    options.onStart?.({ runId, runDir, resumed, trials: trials.length, folds: foldTests.length, rows: training.rowCount });
+    options.onStart?.({ runId, runDir, resumed, trials: trials.length, folds: foldTests.length, rows: training.rowCount, metric: metric.name });
 
     const setup = { pack, foldTests, metric: metric.name };
     const runner = options.runner ? options.runner(setup) : createLocalPool(setup, options.workers);

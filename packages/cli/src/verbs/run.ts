@@ -50,7 +50,7 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
           process.stderr.write(
             `nightshift: ${info.resumed ? "resuming" : "starting"} run ${info.runId} in ${info.runDir}: ${info.trials} trials × ${info.folds} folds on ${info.rows} training rows\n`,
           );
-          bar = createProgressBar("");
+          bar = createProgressBar(info.metric);
         }
       },
       onProgress: (p) => bar?.update(p),
