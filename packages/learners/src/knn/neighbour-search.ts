@@ -1,3 +1,4 @@
+import { WASM_MEMORY_LIMIT } from "../wasm/encoder.js";
 import { createScreeningKernel, PANEL_ROWS, QUERY_BLOCK, RECORD_BYTES } from "./screening-kernel.js";
 
 /**
@@ -74,6 +75,8 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
   const thresholdsAt = take(chunk * 4);
   // Worst case: every query of the chunk flags every panel of a tile.
   const recordsAt = take(chunk * tilePanels * RECORD_BYTES);
+  if (bytes > WASM_MEMORY_LIMIT)
+    throw new RangeError(`knn: ${n} training rows × ${p} design columns need ${(bytes / 2 ** 30).toFixed(1)} GiB of single-precision panels, beyond the 4 GiB of a WebAssembly memory`);
   const kernel = createScreeningKernel(bytes);
   const f32 = new Float32Array(kernel.memory.buffer);
   const i32 = new Int32Array(kernel.memory.buffer);
