@@ -219,7 +219,7 @@ function siftDown(distances: Float64Array, rows: Int32Array, base: number, size:
 }
 
 /** Offers (d, row) to the max-heap at `base` holding `size` of at most `k` entries; returns the new size. */
-export function heapOffer(distances: Float64Array, rows: Int32Array, base: number, size: number, k: number, d: number, row: number): number {
+function heapOffer(distances: Float64Array, rows: Int32Array, base: number, size: number, k: number, d: number, row: number): number {
   if (size < k) {
     let i = size;
     distances[base + i] = d;
