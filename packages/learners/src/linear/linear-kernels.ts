@@ -55,6 +55,7 @@ export function createLinearKernels(rows: number, width: number, k: number, buff
     x,
     buffer(length) {
       if (length > paddedRows * k) throw new RangeError("linear kernels: buffer larger than rows × k");
+      if (nextBuffer + bufferBytes > totalBytes) throw new RangeError(`linear kernels: all ${buffers} buffers are in use`);
       const out = new Float64Array(memory.buffer, nextBuffer, length);
       nextBuffer += bufferBytes;
       return out;
