@@ -1,7 +1,7 @@
 import { createRng } from "@nightshift/core";
 import { describe, expect, it } from "vitest";
 import { type GrowingData, TreeGrower } from "../src/boosted/grow-tree.js";
-import { buildHistogram, histogramIndex, histogramLayout, subtractHistogram } from "../src/boosted/histogram.js";
+import { buildHistogram, histogramLayout, rowMajorBins, subtractHistogram } from "../src/boosted/histogram.js";
 
 /** Random local bins (missing = value bin count) for n rows and the given bins per feature. */
 function randomData(n: number, valueBins: number[], seed: number): GrowingData & { grad: Float64Array; hess: Float64Array } {
@@ -20,7 +20,7 @@ function randomData(n: number, valueBins: number[], seed: number): GrowingData &
     grad[r] = (columnBins[0][r] < valueBins[0] / 2 ? -1 : 1) + 0.5 * rng.normal();
     hess[r] = 0.1 + rng.next();
   }
-  return { columnBins, histogramIndex: histogramIndex(layout, columnBins, n), layout, categorical: new Uint8Array(width), rowCount: n, grad, hess };
+  return { columnBins, rowBins: rowMajorBins(columnBins, n), layout, categorical: new Uint8Array(width), rowCount: n, grad, hess };
 }
 
 describe("gradient histograms", () => {
@@ -30,9 +30,9 @@ describe("gradient histograms", () => {
     const features = Int32Array.from([0, 1, 2]);
     const rows = Uint32Array.from({ length: 500 }, (_, i) => i);
     const hist = new Float64Array(3 * layout.length);
-    buildHistogram(hist, 0, layout, data.histogramIndex, features, 3, rows, 0, 500, data.grad, data.hess, true, false);
-    buildHistogram(hist, layout.length, layout, data.histogramIndex, features, 3, rows, 0, 180, data.grad, data.hess, true, false);
-    buildHistogram(hist, 2 * layout.length, layout, data.histogramIndex, features, 3, rows, 180, 500, data.grad, data.hess, true, false);
+    buildHistogram(hist, 0, layout, data.rowBins, features, 3, rows, 0, 500, data.grad, data.hess, true, false);
+    buildHistogram(hist, layout.length, layout, data.rowBins, features, 3, rows, 0, 180, data.grad, data.hess, true, false);
+    buildHistogram(hist, 2 * layout.length, layout, data.rowBins, features, 3, rows, 180, 500, data.grad, data.hess, true, false);
     subtractHistogram(hist, 0, layout.length, layout, features, 3);
     for (let i = 0; i < layout.length; i++) expect(hist[i]).toBeCloseTo(hist[2 * layout.length + i], 9);
   });

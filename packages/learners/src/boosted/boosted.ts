@@ -2,7 +2,7 @@ import type { Rng, TableView, Task, TrainView } from "@nightshift/core";
 import { type BinMapper, binRows, fitBinMapper } from "../binning/bin-mapper.js";
 import { FitError, type Learner } from "../learner.js";
 import { TreeGrower } from "./grow-tree.js";
-import { histogramIndex, histogramLayout } from "./histogram.js";
+import { histogramLayout, rowMajorBins } from "./histogram.js";
 import { boostedFromJSON, boostedToJSON } from "./model-json.js";
 import { binaryLogLoss, type Objective, softmaxLoss, squaredError } from "./objectives.js";
 import { type BoostedParams, BoostedParamsSchema } from "./params.js";
@@ -115,7 +115,7 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
 
   const layout = histogramLayout(valueBins);
   const grower = new TreeGrower(
-    { columnBins: binned.bins, histogramIndex: histogramIndex(layout, binned.bins, n), layout, categorical, rowCount: n },
+    { columnBins: binned.bins, rowBins: rowMajorBins(binned.bins, n), layout, categorical, rowCount: n },
     {
       maxLeaves: params.leaves,
       maxDepth: params.depth ?? Infinity,
