@@ -1,5 +1,6 @@
 import type { Rng, TableView, Task, TrainView } from "@nightshift/core";
-import { type BinMapper, binRows, fitBinMapper } from "../binning/bin-mapper.js";
+import { type BinMapper, binCount, fitBinMapper } from "../binning/bin-mapper.js";
+import { binTrainingRows } from "./bin-search.js";
 import { FitError, type Learner } from "../learner.js";
 import { TreeGrower } from "./grow-tree.js";
 import { histogramLayout, rowMajorBins } from "./histogram.js";
@@ -85,19 +86,13 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
   const fitRows = new Uint32Array(fitPositions.length);
   for (let i = 0; i < fitPositions.length; i++) fitRows[i] = view.rows[fitPositions[i]];
   const mapper = fitBinMapper({ columns: view.columns, rows: fitRows }, params.bins, rng);
-  const binned = binRows(mapper, view);
-  const valueBins = binned.binCounts;
-  const features = binned.bins.length;
-  const categorical = new Uint8Array(features);
+  const features = mapper.features.length;
+  const valueBins = Uint16Array.from(mapper.features, binCount);
+  // Local bins: the missing values of feature f go to bin valueBins[f], right after its value bins.
+  const columnBins = binTrainingRows(mapper, view, valueBins);
+  const categorical = Uint8Array.from(mapper.features, (bins) => (bins.kind === "categorical" ? 1 : 0));
   const usable: number[] = [];
-  for (let f = 0; f < features; f++) {
-    categorical[f] = binned.categorical[f] ? 1 : 0;
-    // Local bins: the missing values of feature f go to bin valueBins[f], right after its value bins.
-    const column = binned.bins[f];
-    const missing = valueBins[f];
-    for (let i = 0; i < n; i++) if (column[i] > missing) column[i] = missing;
-    if (takesTwoBins(column, fitPositions)) usable.push(f);
-  }
+  for (let f = 0; f < features; f++) if (takesTwoBins(columnBins[f], fitPositions)) usable.push(f);
   if (usable.length === 0) throw new FitError("boosted", "no usable feature: every feature is constant or missing on the training rows");
 
   const objective: Objective =
@@ -115,7 +110,7 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
 
   const layout = histogramLayout(valueBins);
   const grower = new TreeGrower(
-    { columnBins: binned.bins, rowBins: rowMajorBins(binned.bins, n), layout, categorical, rowCount: n },
+    { columnBins, rowBins: rowMajorBins(columnBins, n), layout, categorical, rowCount: n },
     {
       maxLeaves: params.leaves,
       maxDepth: params.depth ?? Infinity,

@@ -1,5 +1,6 @@
 import type { TableView } from "@nightshift/core";
 import { type BinMapper, MISSING_BIN } from "../binning/bin-mapper.js";
+import { binOf, paddedEdges } from "./bin-search.js";
 import { BITSET_WORDS } from "./split-gain.js";
 import type { TreeEnsemble } from "./tree-ensemble.js";
 
@@ -80,10 +81,7 @@ export function compileTrees(trees: TreeEnsemble, mapper: BinMapper): CompiledTr
       columnUsed[node[2 * n] & 0xffff] = 1;
     }
   }
-  const edges = new Float64Array(256 * features).fill(Infinity);
-  mapper.features.forEach((bins, f) => {
-    if (bins.kind === "numeric") edges.set(bins.upperEdges, 256 * f);
-  });
+  const edges = paddedEdges(mapper);
   return { treeCount: trees.treeCount, features, root, depth, node, value: trees.value, set: trees.set, bits, hasCategorical, edges, columnUsed };
 }
 
@@ -113,11 +111,7 @@ export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: 
   }
 }
 
-/**
- * Bins rows first..first+count-1 of the view into the block (both encodings, see CompiledTrees).
- * Numeric bin = number of upper edges below the value (the first bin whose edge is >= it, as
- * the training mapper assigns), found by a branch-free binary search over 256 padded edges.
- */
+/** Bins rows first..first+count-1 of the view into the block (both encodings, see CompiledTrees). */
 function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, first: number, count: number, block: Uint8Array): void {
   const features = compiled.features;
   const stride = 2 * features;
@@ -141,19 +135,10 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
       const values = column.values;
       const e = 256 * f;
       for (let r = 0; r < count; r++) {
-        const v = values[rows[first + r]];
-        let b = +(edges[e + 127] < v) << 7;
-        b += +(edges[e + b + 63] < v) << 6;
-        b += +(edges[e + b + 31] < v) << 5;
-        b += +(edges[e + b + 15] < v) << 4;
-        b += +(edges[e + b + 7] < v) << 3;
-        b += +(edges[e + b + 3] < v) << 2;
-        b += +(edges[e + b + 1] < v) << 1;
-        b += +(edges[e + b] < v);
-        // NaN fails every comparison (b = 0); it becomes the missing bin.
-        const missing = +(v !== v);
-        block[r * stride + f] = b | (missing * MISSING_BIN);
-        block[r * stride + features + f] = (b + 1) & (missing - 1);
+        const b = binOf(edges, e, values[rows[first + r]]);
+        block[r * stride + f] = b;
+        // b + 1, and 0 for the missing bin (255 + 1 wraps in a byte).
+        block[r * stride + features + f] = b + 1;
       }
     }
   }
