@@ -1,7 +1,7 @@
 import type { Rng, TableView, Task, TrainView } from "@nightshift/core";
 import { type BinMapper, binCount, fitBinMapper } from "../binning/bin-mapper.js";
-import { binTrainingRows } from "./bin-search.js";
 import { FitError, type Learner } from "../learner.js";
+import { binTrainingRows } from "./bin-search.js";
 import { TreeGrower } from "./grow-tree.js";
 import { histogramLayout, rowMajorBins } from "./histogram.js";
 import { boostedFromJSON, boostedToJSON } from "./model-json.js";
@@ -62,18 +62,16 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
   }
 
   const classSizes = new Float64Array(classCount);
-  if (classes !== null) {
+  let present = 0;
+  if (classes !== null && target.kind === "classes") {
     for (let i = 0; i < n; i++) classSizes[classes[i]]++;
-    const present = classSizes.reduce((count, size) => count + (size > 0 ? 1 : 0), 0);
-    if (present < 2 && target.kind === "classes") {
-      throw new FitError("boosted", `the training rows hold only one class (${target.labels[classes[0]]}); at least two are needed`);
-    }
+    present = classSizes.reduce((count, size) => count + (size > 0 ? 1 : 0), 0);
+    if (present < 2) throw new FitError("boosted", `the training rows hold only one class (${target.labels[classes[0]]}); at least two are needed`);
   }
 
   // METHODS.md §9: balanced weights n / (C · n_c) over the classes present.
   let weights: Float64Array | null = null;
   if (classes !== null && params.class_weight === "balanced") {
-    const present = classSizes.reduce((count, size) => count + (size > 0 ? 1 : 0), 0);
     weights = new Float64Array(n);
     for (let i = 0; i < n; i++) weights[i] = n / (present * classSizes[classes[i]]);
   }
