@@ -1,7 +1,8 @@
+import type { FitContext } from "../learner.js";
 import { InputError, type Rng, type TableView, type TrainView } from "@nightshift/core";
 import { z } from "zod";
 import { FitError, type Learner, type ModelJson } from "../learner.js";
-import { designMatrix, DesignEncodingSchema, fitDesign, type DesignEncoding } from "../preprocess/design-matrix.js";
+import { designMatrix, DesignEncodingSchema, type DesignEncoding, trainingDesign } from "../preprocess/design-matrix.js";
 import { classWeights } from "./class-weights.js";
 import { createLinearKernels } from "./linear-kernels.js";
 import { fitLogistic } from "./logistic.js";
@@ -45,8 +46,8 @@ const LinearModelJsonSchema = z
   })
   .strict();
 
-export function fitLinear(view: TrainView, params: LogisticParams): LinearModel {
-  const encoding = fitDesign(view, { missingIndicators: params.missing_indicators });
+export function fitLinear(view: TrainView, params: LogisticParams, context?: FitContext): LinearModel {
+  const encoding = trainingDesign(view, { missingIndicators: params.missing_indicators }, context);
   if (encoding.width === 0) throw new FitError("logistic", "no usable feature: every feature column is constant or missing in the training rows");
   const n = view.rows.length;
   const p = encoding.width;
@@ -177,7 +178,7 @@ export function linearModelFromJSON(json: ModelJson): LinearModel {
 export const logisticLearner: Learner<LogisticParams, LinearModel> = {
   family: "logistic",
   params: LogisticParamsSchema,
-  fit: (view: TrainView, params: LogisticParams, _rng: Rng) => fitLinear(view, params),
+  fit: (view: TrainView, params: LogisticParams, _rng: Rng, context?: FitContext) => fitLinear(view, params, context),
   predict: predictLinear,
   toJSON: linearModelToJSON,
   fromJSON: linearModelFromJSON,
