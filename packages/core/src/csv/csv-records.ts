@@ -9,8 +9,8 @@ export type RecordHandler = (record: string[], line: number) => void;
 
 /**
  * Bytes per read of a file. papaparse joins what it kept of the last chunk to the next one and
- * makes garbage in proportion to a chunk; 64 KB reads took about 60 MB less peak memory and
- * no more time than 1 MB ones in bench/ingest.bench.ts.
+ * makes garbage in proportion to a chunk; reading the file of bench/ingest.bench.ts, 64 KB reads
+ * took about 60 MB less peak memory and no more time than 1 MB ones (docs/BENCHMARKS.md).
  */
 const READ_BYTES = 1 << 16;
 
@@ -28,7 +28,7 @@ const QUOTE = 34;
 
 /**
  * Parses CSV text already in memory, handing each record to `onRecord`. The dialect and the
- * errors are those of streamRecords.
+ * errors are those of streamRecords, but for MAX_RECORD_CHARS: the text is parsed in one piece.
  */
 export function parseRecords(text: string, source: string, dialect: Dialect, onRecord: RecordHandler): void {
   const receiver = new RecordReceiver(source, onRecord);
