@@ -55,10 +55,11 @@ const CLIPPED_LOSS = -Math.log(2.220446049250313e-16);
  *   random_state moves the mean AP over 0.840–0.856 and accuracy over 0.977–0.982). A single tree's
  *   fold scores swing by several rows, so ±0.03 AP and accuracy, ±10 % RMSE, 36.04 × 0.03 log loss.
  * - forest and extra trees (50 trees each side): the same algorithm on other random streams.
- *   Changing scikit-learn's random_state alone moves the means by up to 0.002 AP, 0.003 accuracy,
- *   0.009 log loss and 1.3 % RMSE (mean_by_seed in the JSON), and two independent draws differ by
- *   up to about that range; the tolerance is about one and a half times it: ±0.01 AP, ±0.015
- *   accuracy (5 of 342 rows), ±0.015 log loss, ±5 % RMSE.
+ *   Changing scikit-learn's random_state alone moves its means by up to 0.002 AP, 0.003 accuracy,
+ *   0.009 log loss and 1.3 % RMSE (mean_by_seed in the JSON); the standard error of its mean over
+ *   the five folds is 0.005 AP, 0.006–0.009 accuracy, 0.005–0.012 log loss, 4.6–6.3 % RMSE. The
+ *   tolerances lie above the first and at one to two times the second: ±0.01 AP, ±0.015 accuracy
+ *   (5 of 342 rows), ±0.015 log loss, ±5 % RMSE.
  * - boosted: the same method as both references (histogram bins, second-order leaf values,
  *   leaf-wise growth to 31 leaves, 100 rounds at 0.1). Bin edges are placed differently (xgboost's
  *   weighted quantile sketch over float32; scikit-learn's and ours coincide below 256 distinct
