@@ -43,18 +43,18 @@ export interface GrowSettings {
 const MARK_WHILE_BUILDING_ROWS = 512;
 
 /**
- * Nodes with fewer rows read bins row-major. Above it a node's rows cover most cache lines of a
- * feature's column anyway, and reading the columns moves p/k times fewer bytes (k features
- * tried of p).
+ * Nodes with fewer rows read bins row-major: their rows lie far apart, and one cache line then
+ * serves every feature tried on a row. Larger nodes read the features' columns, whose lines
+ * their rows (kept in ascending order) mostly share. Measured on bench/trees.bench.ts's set.
  */
-const ROW_MAJOR_ROWS = 2048;
+const ROW_MAJOR_ROWS = 512;
 
 /**
  * Grows depth-first decision trees on binned rows (one grower per fit, reused for every tree of
  * a forest so buffers are allocated once).
  *
- * Rows of a node are a range of one Uint32Array of row indices, partitioned in place at each
- * split. A node's histograms are built for its candidate features when its parent splits:
+ * Rows of a node are a range of one Uint32Array of row indices, partitioned at each split
+ * (stably, so a node's rows stay in row order). A node's histograms are built for its candidate features when its parent splits:
  * the child with fewer rows is built from its rows and its sibling's histogram of a feature
  * both need is the parent's minus it (histogram subtraction, Ke et al. 2017 §3), whenever the
  * parent has that feature's histogram. With per-split feature sampling (forests) the children
@@ -84,6 +84,11 @@ export class TreeGrower {
   private readonly channel: Int32Array;
   /** Bootstrap multiplicity (or 1) of the row. */
   private readonly count: Float64Array;
+  /** Room for the right side while partitioning. */
+  private readonly spareIndex: Uint32Array;
+  private readonly spareCount: Float64Array;
+  private readonly spareChannel: Int32Array;
+  private readonly spareValues: Float64Array;
   /** A random cut's bins by position, and those of the best cut so far (swapped, not copied). */
   private gathered: Uint8Array;
   private bestGathered: Uint8Array;
@@ -148,6 +153,10 @@ export class TreeGrower {
     this.channel = new Int32Array(this.regression ? 0 : rowCount);
     this.count = new Float64Array(rowCount);
     this.countTimesValue = new Float64Array(this.regression ? rowCount : 0);
+    this.spareIndex = new Uint32Array(rowCount);
+    this.spareCount = new Float64Array(rowCount);
+    this.spareChannel = new Int32Array(this.regression ? 0 : rowCount);
+    this.spareValues = new Float64Array(this.regression ? rowCount : 0);
     this.gathered = new Uint8Array(settings.randomCuts ? rowCount : 0);
     this.bestGathered = new Uint8Array(settings.randomCuts ? rowCount : 0);
     const p = this.featureCount;
@@ -538,9 +547,12 @@ export class TreeGrower {
       goesLeft[MISSING_BIN] = finder.missingLeft ? 1 : 0;
     }
     const other = this.regression ? this.countTimesValue : this.channel;
-    if (this.bestIsGathered) return partitionGathered(this.bestGathered, goesLeft, this.index, this.count, other, start, end);
+    const spareOther = this.regression ? this.spareValues : this.spareChannel;
+    if (this.bestIsGathered) {
+      return partitionGathered(this.bestGathered, goesLeft, this.index, this.count, other, start, end, this.spareIndex, this.spareCount, spareOther);
+    }
     const source = this.locate(finder.feature, end - start);
-    return partitionRows(source, this.step, this.offset, goesLeft, this.index, this.count, other, start, end);
+    return partitionRows(source, this.step, this.offset, goesLeft, this.index, this.count, other, start, end, this.spareIndex, this.spareCount, spareOther);
   }
 
   private isTerminal(start: number, end: number, depth: number, stats: Float64Array): boolean {
@@ -738,55 +750,81 @@ function markFromRows(hist: Float64Array, base: number, stride: number, masks: U
 }
 
 /**
- * Stable-free in-place partition of positions [start, end) by `goesLeft[bin]`, moving the row
- * index and its two per-position arrays together; returns the first position of the right side.
+ * Stable partition of positions [start, end) by `goesLeft[bin]`, moving the row index and its
+ * two per-position arrays together; returns the first position of the right side. Stable, so
+ * every node's rows stay in ascending row order and reading their bins walks memory forwards.
+ * Each row is written to both sides and only the pointer of its side advances: no branch on
+ * the side, which a split makes unpredictable.
  */
-function partitionRows(source: Uint8Array, step: number, offset: number, goesLeft: Uint8Array, index: Uint32Array, count: Float64Array, other: Int32Array | Float64Array, start: number, end: number): number {
-  let i = start;
-  let j = end;
-  while (i < j) {
+function partitionRows(
+  source: Uint8Array,
+  step: number,
+  offset: number,
+  goesLeft: Uint8Array,
+  index: Uint32Array,
+  count: Float64Array,
+  other: Int32Array | Float64Array,
+  start: number,
+  end: number,
+  spareIndex: Uint32Array,
+  spareCount: Float64Array,
+  spareOther: Int32Array | Float64Array,
+): number {
+  let left = start;
+  let right = 0;
+  for (let i = start; i < end; i++) {
     const r = index[i];
-    if (goesLeft[source[r * step + offset]] === 1) {
-      i++;
-      continue;
-    }
-    j--;
-    index[i] = index[j];
-    index[j] = r;
     const c = count[i];
-    count[i] = count[j];
-    count[j] = c;
     const o = other[i];
-    other[i] = other[j];
-    other[j] = o;
+    const isLeft = goesLeft[source[r * step + offset]];
+    index[left] = r;
+    count[left] = c;
+    other[left] = o;
+    spareIndex[right] = r;
+    spareCount[right] = c;
+    spareOther[right] = o;
+    left += isLeft;
+    right += 1 - isLeft;
   }
-  return i;
+  index.set(spareIndex.subarray(0, right), left);
+  count.set(spareCount.subarray(0, right), left);
+  other.set(spareOther.subarray(0, right), left);
+  return left;
 }
 
 /** partitionRows for a split whose bins by position are at hand (random cuts). */
-function partitionGathered(gathered: Uint8Array, goesLeft: Uint8Array, index: Uint32Array, count: Float64Array, other: Int32Array | Float64Array, start: number, end: number): number {
-  let i = start;
-  let j = end;
-  while (i < j) {
-    const bin = gathered[i];
-    if (goesLeft[bin] === 1) {
-      i++;
-      continue;
-    }
-    j--;
-    gathered[i] = gathered[j];
-    gathered[j] = bin;
+function partitionGathered(
+  gathered: Uint8Array,
+  goesLeft: Uint8Array,
+  index: Uint32Array,
+  count: Float64Array,
+  other: Int32Array | Float64Array,
+  start: number,
+  end: number,
+  spareIndex: Uint32Array,
+  spareCount: Float64Array,
+  spareOther: Int32Array | Float64Array,
+): number {
+  let left = start;
+  let right = 0;
+  for (let i = start; i < end; i++) {
     const r = index[i];
-    index[i] = index[j];
-    index[j] = r;
     const c = count[i];
-    count[i] = count[j];
-    count[j] = c;
     const o = other[i];
-    other[i] = other[j];
-    other[j] = o;
+    const isLeft = goesLeft[gathered[i]];
+    index[left] = r;
+    count[left] = c;
+    other[left] = o;
+    spareIndex[right] = r;
+    spareCount[right] = c;
+    spareOther[right] = o;
+    left += isLeft;
+    right += 1 - isLeft;
   }
-  return i;
+  index.set(spareIndex.subarray(0, right), left);
+  count.set(spareCount.subarray(0, right), left);
+  other.set(spareOther.subarray(0, right), left);
+  return left;
 }
 
 /**
