@@ -692,6 +692,14 @@ function drawFeature(order: Int32Array, position: number, size: number, rng: Rng
 // monomorphic and optimised on its own.
 
 function addClassRows(hist: Float64Array, base: number, stride: number, source: Uint8Array, step: number, offset: number, index: Uint32Array, start: number, end: number, channel: Int32Array, count: Float64Array): void {
+  if (step === 1) {
+    for (let i = start; i < end; i++) {
+      const o = base + source[index[i]] * stride;
+      hist[o] += 1;
+      hist[o + channel[i]] += count[i];
+    }
+    return;
+  }
   for (let i = start; i < end; i++) {
     const o = base + source[index[i] * step + offset] * stride;
     hist[o] += 1;
@@ -836,18 +844,29 @@ function partitionGathered(
 function gatherRange(source: Uint8Array, step: number, offset: number, index: Uint32Array, start: number, end: number, gathered: Uint8Array): number {
   let lowest = MISSING_BIN;
   let highest = 0;
-  let missing = 0;
-  for (let i = start; i < end; i++) {
-    const bin = source[index[i] * step + offset];
-    gathered[i] = bin;
-    const isMissing = (bin + 1) >>> 8;
-    // The missing bin (255) counts as 0 for the highest present bin; it never lowers the lowest.
-    const value = bin - isMissing * MISSING_BIN;
-    missing |= isMissing;
-    lowest = bin < lowest ? bin : lowest;
-    highest = value > highest ? value : highest;
+  if (step === 1) {
+    for (let i = start; i < end; i++) {
+      const bin = source[index[i]];
+      gathered[i] = bin;
+      lowest = Math.min(lowest, bin);
+      highest = Math.max(highest, bin);
+    }
+  } else {
+    for (let i = start; i < end; i++) {
+      const bin = source[index[i] * step + offset];
+      gathered[i] = bin;
+      lowest = Math.min(lowest, bin);
+      highest = Math.max(highest, bin);
+    }
   }
-  return lowest | (highest << 8) | (missing << 16);
+  if (highest !== MISSING_BIN) return lowest | (highest << 8);
+  // Missing values present: the highest present value bin needs one more (in-order) pass.
+  highest = 0;
+  for (let i = start; i < end; i++) {
+    const bin = gathered[i];
+    if (bin !== MISSING_BIN && bin > highest) highest = bin;
+  }
+  return lowest | (highest << 8) | (1 << 16);
 }
 
 // Sums of one random cut: `left` gets the statistics of bins <= threshold, `missing` those of
