@@ -54,13 +54,17 @@ const ROW_MAJOR_ROWS = 512;
  * a forest so buffers are allocated once).
  *
  * Rows of a node are a range of one Uint32Array of row indices, partitioned at each split
- * (stably, so a node's rows stay in row order). A node's histograms are built for its candidate features when its parent splits:
- * the child with fewer rows is built from its rows and its sibling's histogram of a feature
- * both need is the parent's minus it (histogram subtraction, Ke et al. 2017 §3), whenever the
- * parent has that feature's histogram. With per-split feature sampling (forests) the children
- * mostly draw features the parent did not try, so most histograms are built from rows; a
- * feature only one child needs is still derived by subtraction when the other child is smaller
- * than the needing one.
+ * (stably, so a node's rows stay in ascending row order).
+ *
+ * Best cuts (CART, forests): a node's histograms are built for its candidate features when its
+ * parent splits. The child with fewer rows is built from its rows, and its sibling's histogram
+ * of a feature both need is the parent's minus it (histogram subtraction, Ke et al. 2017 §3)
+ * whenever the parent has that feature's histogram. With per-split feature sampling the
+ * children mostly draw features the parent did not try, so most histograms are then built from
+ * rows; a feature only one child needs is still derived by subtraction when the other child is
+ * smaller than the needing one.
+ *
+ * Random cuts (extra trees): no histograms; see `randomCut`.
  *
  * Features found constant in a node are never tried again below it, and do not count towards
  * the features tried per split (as in Breiman's and the common implementations).
@@ -330,9 +334,9 @@ export class TreeGrower {
         }
         this.releaseSlots(slots, order, firstCandidate, triedEnd);
       }
-      if (rightOpen && leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, rightAt, constants, first, rightSlots);
-      if (leftOpen) this.pushPrepared(leftNode, start, mid, depth + 1, leftStats, leftAt, constants, first, leftSlots);
-      if (rightOpen && !leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, rightAt, constants, first, rightSlots);
+      if (rightOpen && leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, constants, first, rightSlots);
+      if (leftOpen) this.pushPrepared(leftNode, start, mid, depth + 1, leftStats, constants, first, leftSlots);
+      if (rightOpen && !leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, constants, first, rightSlots);
     } else if (!randomCuts) {
       this.releaseSlots(slots, order, firstCandidate, triedEnd);
     }
@@ -548,6 +552,10 @@ export class TreeGrower {
     }
     const other = this.regression ? this.countTimesValue : this.channel;
     const spareOther = this.regression ? this.spareValues : this.spareChannel;
+    if (this.bestIsGathered && this.unitCounts) {
+      // Every count is 1 in every position: counts need not move.
+      return partitionGatheredUnit(this.bestGathered, goesLeft, this.index, other, start, end, this.spareIndex, spareOther);
+    }
     if (this.bestIsGathered) {
       return partitionGathered(this.bestGathered, goesLeft, this.index, this.count, other, start, end, this.spareIndex, this.spareCount, spareOther);
     }
@@ -638,14 +646,13 @@ export class TreeGrower {
     const first = Math.min(this.settings.splitFeatures, usableCount - constants);
     this.drawInto(at, constants, first, usableCount, random, rng);
     this.slots.fill(-1);
-    this.pushPrepared(node, start, end, depth, stats, at, constants, first, this.slots);
+    this.pushPrepared(node, start, end, depth, stats, constants, first, this.slots);
   }
 
-  /** Pushes an entry whose order already sits in the stack at its own place. */
-  private pushPrepared(node: number, start: number, end: number, depth: number, stats: Float64Array, orderAt: number, constants: number, drawn: number, slots: Int32Array): void {
+  /** Pushes an entry whose feature order already sits in the stack at its own place (top · p). */
+  private pushPrepared(node: number, start: number, end: number, depth: number, stats: Float64Array, constants: number, drawn: number, slots: Int32Array): void {
     const p = this.featureCount;
     const top = this.stackSize++;
-    if (orderAt !== top * p) throw new Error("tree grower: stack order out of place");
     this.stackNode[top] = node;
     this.stackStart[top] = start;
     this.stackEnd[top] = end;
@@ -831,6 +838,34 @@ function partitionGathered(
   }
   index.set(spareIndex.subarray(0, right), left);
   count.set(spareCount.subarray(0, right), left);
+  other.set(spareOther.subarray(0, right), left);
+  return left;
+}
+
+function partitionGatheredUnit(
+  gathered: Uint8Array,
+  goesLeft: Uint8Array,
+  index: Uint32Array,
+  other: Int32Array | Float64Array,
+  start: number,
+  end: number,
+  spareIndex: Uint32Array,
+  spareOther: Int32Array | Float64Array,
+): number {
+  let left = start;
+  let right = 0;
+  for (let i = start; i < end; i++) {
+    const r = index[i];
+    const o = other[i];
+    const isLeft = goesLeft[gathered[i]];
+    index[left] = r;
+    other[left] = o;
+    spareIndex[right] = r;
+    spareOther[right] = o;
+    left += isLeft;
+    right += 1 - isLeft;
+  }
+  index.set(spareIndex.subarray(0, right), left);
   other.set(spareOther.subarray(0, right), left);
   return left;
 }
