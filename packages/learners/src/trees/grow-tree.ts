@@ -266,6 +266,9 @@ export class TreeGrower {
       }
       tried++;
       if (tried >= this.settings.splitFeatures && finder.found) break;
+      // No candidate can strictly beat a split into two pure children, so the rest are skipped:
+      // the tree is the same as with every candidate scored (the first best is kept either way).
+      if (!this.regression && finder.found && finder.splitsPurely()) break;
     }
 
     // Features found constant here move to the front: children skip them.

@@ -69,6 +69,17 @@ export class SplitFinder {
     this.right = new Float64Array(width);
   }
 
+  /** Whether the best split so far leaves one class on each side (classification). */
+  splitsPurely(): boolean {
+    let leftClasses = 0;
+    let rightClasses = 0;
+    for (let k = 0; k < this.width; k++) {
+      if (this.leftStats[k] > 0) leftClasses++;
+      if (this.total[k] - this.leftStats[k] > 0) rightClasses++;
+    }
+    return leftClasses <= 1 && rightClasses <= 1;
+  }
+
   beginNode(total: Float64Array, rows: number): void {
     this.total = total;
     this.rows = rows;
