@@ -58,7 +58,7 @@ const ROW_MAJOR_ROWS = 512;
  *
  * Best cuts (CART, forests): a node's histograms are built for its candidate features when its
  * parent splits. The child with fewer rows is built from its rows, and its sibling's histogram
- * of a feature both need is the parent's minus it (histogram subtraction, Ke et al. 2017 §3)
+ * of a feature both need is the parent's minus it (histogram subtraction, Ke et al. 2017)
  * whenever the parent has that feature's histogram. With per-split feature sampling the
  * children mostly draw features the parent did not try, so most histograms are then built from
  * rows; a feature only one child needs is still derived by subtraction when the other child is

@@ -14,7 +14,7 @@ import { BITSET_WORDS } from "./tree-model.js";
  * Categorical features: the node's categories are ordered by their rate of the positive class
  * (binary) or their mean target (regression) and the prefixes of that order are scanned; this
  * finds the best of all 2^(k−1) partitions for two classes and for squared error (Fisher 1958;
- * Breiman et al. 1984, CART §9.4). For more than two classes no such order exists; we scan one
+ * Breiman et al. 1984, CART). For more than two classes no such order exists; we scan one
  * order per class (the categories by their rate of class c, one-vs-rest) and keep the best, a
  * heuristic that costs C scans instead of 2^(k−1) partitions.
  */
