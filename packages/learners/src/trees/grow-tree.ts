@@ -229,8 +229,9 @@ export class TreeGrower {
     const order = this.order;
     const slots = this.slots;
     const randomCuts = this.settings.randomCuts;
-    order.set(this.stackOrder.subarray(top * p, top * p + p));
-    if (!randomCuts) slots.set(this.stackSlots.subarray(top * p, top * p + p));
+    const stackOrder = this.stackOrder;
+    for (let f = 0, at = top * p; f < p; f++) order[f] = stackOrder[at + f];
+    if (!randomCuts) for (let f = 0, at = top * p; f < p; f++) slots[f] = this.stackSlots[at + f];
     const stats = this.stats;
     for (let k = 0; k < this.width; k++) stats[k] = this.stackStats[top * this.width + k];
     const usableCount = this.data.usable.length;
@@ -245,7 +246,7 @@ export class TreeGrower {
     let tried = 0;
     for (let position = constants; position < usableCount; position++) {
       if (position === constants + drawn) {
-        if (random) drawFeature(order, position, usableCount, rng);
+        if (random) drawFeature(order, 0, position, usableCount, rng);
         drawn++;
       }
       const feature = order[position];
@@ -325,7 +326,6 @@ export class TreeGrower {
       if (leftOpen) this.drawInto(leftAt, constants, first, usableCount, random, rng);
       if (rightOpen) this.drawInto(rightAt, constants, first, usableCount, random, rng);
       if (!randomCuts) {
-        const stackOrder = this.stackOrder;
         for (let i = constants; i < constants + first; i++) {
           if (leftOpen) need[stackOrder[leftAt + i]] |= 1;
           if (rightOpen) need[stackOrder[rightAt + i]] |= 2;
@@ -635,8 +635,7 @@ export class TreeGrower {
   /** Draws the first `first` features after the constants of the order stored at `at`. */
   private drawInto(at: number, constants: number, first: number, usableCount: number, random: boolean, rng: Rng): void {
     if (!random) return;
-    const order = this.stackOrder.subarray(at, at + usableCount);
-    for (let i = constants; i < constants + first; i++) drawFeature(order, i, usableCount, rng);
+    for (let i = constants; i < constants + first; i++) drawFeature(this.stackOrder, at, i, usableCount, rng);
   }
 
   /** Root entry (its order is given; no histograms yet). */
@@ -690,12 +689,15 @@ export class TreeGrower {
   }
 }
 
-/** Partial Fisher–Yates step: a uniformly drawn feature among order[position, size) moves to `position`. */
-function drawFeature(order: Int32Array, position: number, size: number, rng: Rng): void {
-  const pick = position + rng.int(size - position);
+/**
+ * Partial Fisher–Yates step on the order stored from `at`: a uniformly drawn feature among
+ * positions [position, size) moves to `position`.
+ */
+function drawFeature(order: Int32Array, at: number, position: number, size: number, rng: Rng): void {
+  const pick = at + position + rng.int(size - position);
   const feature = order[pick];
-  order[pick] = order[position];
-  order[position] = feature;
+  order[pick] = order[at + position];
+  order[at + position] = feature;
 }
 
 // Histogram kernels: top-level functions with every array passed in, so each stays small,
@@ -804,9 +806,11 @@ function partitionRows(
     left += isLeft;
     right += 1 - isLeft;
   }
-  index.set(spareIndex.subarray(0, right), left);
-  count.set(spareCount.subarray(0, right), left);
-  other.set(spareOther.subarray(0, right), left);
+  for (let j = 0; j < right; j++) {
+    index[left + j] = spareIndex[j];
+    count[left + j] = spareCount[j];
+    other[left + j] = spareOther[j];
+  }
   return left;
 }
 
@@ -839,9 +843,11 @@ function partitionGathered(
     left += isLeft;
     right += 1 - isLeft;
   }
-  index.set(spareIndex.subarray(0, right), left);
-  count.set(spareCount.subarray(0, right), left);
-  other.set(spareOther.subarray(0, right), left);
+  for (let j = 0; j < right; j++) {
+    index[left + j] = spareIndex[j];
+    count[left + j] = spareCount[j];
+    other[left + j] = spareOther[j];
+  }
   return left;
 }
 
@@ -868,8 +874,10 @@ function partitionGatheredUnit(
     left += isLeft;
     right += 1 - isLeft;
   }
-  index.set(spareIndex.subarray(0, right), left);
-  other.set(spareOther.subarray(0, right), left);
+  for (let j = 0; j < right; j++) {
+    index[left + j] = spareIndex[j];
+    other[left + j] = spareOther[j];
+  }
   return left;
 }
 
