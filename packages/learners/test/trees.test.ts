@@ -1,7 +1,10 @@
 import { createRng, type TrainView } from "@nightshift/core";
 import { describe, expect, it } from "vitest";
+import { binRows, fitBinMapper } from "../src/binning/bin-mapper.js";
 import { FitError } from "../src/learner.js";
 import { ParamError, parseParams } from "../src/params.js";
+import { TreeGrower } from "../src/trees/grow-tree.js";
+import { CRITERION_GINI } from "../src/trees/impurity.js";
 import { extraTreesLearner, forestLearner, type TreeEnsembleModel, treeLearner } from "../src/trees/index.js";
 import {
   accuracy,
@@ -322,6 +325,25 @@ describe("tree families: refusals", () => {
       expect(() => fitFamily(family, trainView(columns, classes(new Array(50).fill(1))))).toThrow(/only one class in the training rows/);
       const flat = [numeric("c", new Array(50).fill(3)), numeric("gone", new Array(50).fill(NaN))];
       expect(() => fitFamily(family, trainView(flat, classes(Array.from({ length: 50 }, (_, i) => i % 2))))).toThrow(/no usable feature/);
+    }
+  });
+});
+
+describe("tree grower: bin layouts", () => {
+  it("grows the same trees whether small nodes read the row-major copy of the bins or the columns", () => {
+    const { columns, y } = noisyRule(3000, 5, 8, 0.3);
+    const view = trainView(columns, classes(y));
+    const binned = binRows(fitBinMapper(view), view);
+    const rowBins = new Uint8Array(3000 * 5);
+    for (let f = 0; f < 5; f++) for (let r = 0; r < 3000; r++) rowBins[r * 5 + f] = binned.bins[f][r];
+    const base = { bins: binned.bins, categorical: binned.categorical, usable: Int32Array.from([0, 1, 2, 3, 4]), classes: y, classCount: 2, values: null, classWeight: Float64Array.from([1, 1]) };
+    for (const randomCuts of [false, true]) {
+      const settings = { criterion: CRITERION_GINI, maxDepth: Infinity, minLeaf: 1, minSplit: 2, splitFeatures: 2, randomCuts } as const;
+      const counts = new Float64Array(3000).fill(1);
+      const withCopy = new TreeGrower({ ...base, rowBins }, settings, 3000).grow(counts, createRng("layout"));
+      const columnsOnly = new TreeGrower({ ...base, rowBins: null }, settings, 3000).grow(counts, createRng("layout"));
+      expect(withCopy.nodeCount).toBeGreaterThan(100);
+      expect(columnsOnly).toEqual(withCopy);
     }
   });
 });

@@ -165,8 +165,12 @@ function sampleRows(counts: Float64Array, picks: Uint32Array | null, draws: numb
   }
 }
 
-function rowMajor(bins: readonly Uint8Array[], rows: number): Uint8Array {
+/** Above this many bytes the row-major copy of the bins is not made (nodes then read columns). */
+const ROW_MAJOR_BYTES = 2 ** 28;
+
+function rowMajor(bins: readonly Uint8Array[], rows: number): Uint8Array | null {
   const p = bins.length;
+  if (rows * p > ROW_MAJOR_BYTES) return null;
   const out = new Uint8Array(rows * p);
   for (let f = 0; f < p; f++) {
     const column = bins[f];

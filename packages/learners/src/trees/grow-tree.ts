@@ -21,8 +21,8 @@ import { TreeBuilder, type TreeArrays } from "./tree-model.js";
 export interface GrowData {
   /** bins[f][r]: bin of training row r on feature f (MISSING_BIN for missing). */
   readonly bins: readonly Uint8Array[];
-  /** The same bins row-major: rowBins[r * p + f]. */
-  readonly rowBins: Uint8Array;
+  /** The same bins row-major, rowBins[r * p + f]; null when that copy would be too large. */
+  readonly rowBins: Uint8Array | null;
   readonly categorical: readonly boolean[];
   /** Features with at least two value bins; the others can never split. */
   readonly usable: Int32Array;
@@ -521,10 +521,11 @@ export class TreeGrower {
    * and one cache line then serves every feature tried on a row instead of one.
    */
   private locate(feature: number, rows: number): Uint8Array {
-    if (rows < ROW_MAJOR_ROWS) {
+    const rowBins = this.data.rowBins;
+    if (rows < ROW_MAJOR_ROWS && rowBins !== null) {
       this.step = this.featureCount;
       this.offset = feature;
-      return this.data.rowBins;
+      return rowBins;
     }
     this.step = 1;
     this.offset = 0;
