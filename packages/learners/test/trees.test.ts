@@ -340,10 +340,13 @@ describe("tree grower: bin layouts", () => {
     for (const randomCuts of [false, true]) {
       const settings = { criterion: CRITERION_GINI, maxDepth: Infinity, minLeaf: 1, minSplit: 2, splitFeatures: 2, randomCuts } as const;
       const counts = new Float64Array(3000).fill(1);
-      const withCopy = new TreeGrower({ ...base, rowBins }, settings, 3000).grow(counts, createRng("layout"));
+      const grower = new TreeGrower({ ...base, rowBins }, settings, 3000);
+      const withCopy = grower.grow(counts, createRng("layout"));
       const columnsOnly = new TreeGrower({ ...base, rowBins: null }, settings, 3000).grow(counts, createRng("layout"));
       expect(withCopy.nodeCount).toBeGreaterThan(100);
       expect(columnsOnly).toEqual(withCopy);
+      // Every histogram slot taken while growing is given back.
+      expect(grower.slotsInUse()).toBe(0);
     }
   });
 });

@@ -241,8 +241,8 @@ export class TreeGrower {
     const order = this.order;
     const slots = this.slots;
     const randomCuts = this.settings.randomCuts;
-    const stackOrder = this.stackOrder;
-    for (let f = 0, at = top * p; f < p; f++) order[f] = stackOrder[at + f];
+    const poppedOrder = this.stackOrder;
+    for (let f = 0, at = top * p; f < p; f++) order[f] = poppedOrder[at + f];
     if (!randomCuts) for (let f = 0, at = top * p; f < p; f++) slots[f] = this.stackSlots[at + f];
     const stats = this.stats;
     for (let k = 0; k < this.width; k++) stats[k] = this.stackStats[top * this.width + k];
@@ -338,14 +338,16 @@ export class TreeGrower {
       if (leftOpen) this.drawInto(leftAt, constants, first, usableCount, random, rng);
       if (rightOpen) this.drawInto(rightAt, constants, first, usableCount, random, rng);
       if (!randomCuts) {
+        // reserveOrders may have grown the stack: read its current arrays.
+        const orders = this.stackOrder;
         for (let i = constants; i < constants + first; i++) {
-          if (leftOpen) need[stackOrder[leftAt + i]] |= 1;
-          if (rightOpen) need[stackOrder[rightAt + i]] |= 2;
+          if (leftOpen) need[orders[leftAt + i]] |= 1;
+          if (rightOpen) need[orders[rightAt + i]] |= 2;
         }
         this.childHistograms(start, mid, end, leftRows, leftOpen ? leftAt : -1, rightOpen ? rightAt : -1, constants, first);
         for (let i = constants; i < constants + first; i++) {
-          if (leftOpen) need[stackOrder[leftAt + i]] = 0;
-          if (rightOpen) need[stackOrder[rightAt + i]] = 0;
+          if (leftOpen) need[orders[leftAt + i]] = 0;
+          if (rightOpen) need[orders[rightAt + i]] = 0;
         }
         this.releaseSlots(slots, order, firstCandidate, triedEnd);
       }
