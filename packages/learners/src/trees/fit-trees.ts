@@ -118,7 +118,7 @@ function targetData(
       values[r] = target.values[view.rows[r]];
       if (!Number.isFinite(values[r])) throw new FitError(family, `target is missing or not finite in training row ${view.rows[r]}`);
     }
-    const data: GrowData = { bins, categorical, usable, classes: null, classCount: 0, values, classWeight: new Float64Array(0) };
+    const data: GrowData = { bins, rowBins: rowMajor(bins, n), categorical, usable, classes: null, classCount: 0, values, classWeight: new Float64Array(0) };
     return { data, width: predictionWidth("regression", 1), criterion: CRITERION_SQUARED_ERROR };
   }
   if (target.kind !== "classes") throw new FitError(family, `a ${view.task} task needs a class target`);
@@ -139,7 +139,7 @@ function targetData(
     // w_c = n / (C · n_c) over the classes present (King & Zeng 2001; METHODS.md §9).
     for (let c = 0; c < classCount; c++) classWeight[c] = perClass[c] > 0 ? n / (present * perClass[c]) : 1;
   }
-  const data: GrowData = { bins, categorical, usable, classes, classCount, values: null, classWeight };
+  const data: GrowData = { bins, rowBins: rowMajor(bins, n), categorical, usable, classes, classCount, values: null, classWeight };
   return { data, width: predictionWidth(view.task, classCount), criterion: settings.criterion === "entropy" ? CRITERION_ENTROPY : CRITERION_GINI };
 }
 
@@ -163,4 +163,18 @@ function sampleRows(counts: Float64Array, picks: Uint32Array | null, draws: numb
     picks[i] = row;
     counts[row] = 1;
   }
+}
+
+/** Above this many bytes the row-major copy of the bins is not made (nodes then read columns). */
+const ROW_MAJOR_BYTES = 2 ** 28;
+
+function rowMajor(bins: readonly Uint8Array[], rows: number): Uint8Array | null {
+  const p = bins.length;
+  if (rows * p > ROW_MAJOR_BYTES) return null;
+  const out = new Uint8Array(rows * p);
+  for (let f = 0; f < p; f++) {
+    const column = bins[f];
+    for (let r = 0; r < rows; r++) out[r * p + f] = column[r];
+  }
+  return out;
 }
