@@ -76,6 +76,7 @@ class RedisRunner implements JobRunner {
   private readonly queue: Queue;
   private readonly events: QueueEvents;
   private readonly waiting = new Map<string, Waiting>();
+  private readonly removals = new Set<Promise<void>>();
   private readonly sweeper: NodeJS.Timeout;
   private bound: { readonly run: string; readonly dataset: string } | undefined;
   private uploaded: Promise<void> | undefined;
@@ -126,11 +127,34 @@ class RedisRunner implements JobRunner {
     if (this.closed) return;
     this.closed = true;
     clearInterval(this.sweeper);
-    // Nothing in flight: the run's setup is not needed until it runs again (it is uploaded then).
-    if (this.bound && this.waiting.size === 0) await this.redis.del(runKey(this.namespace, this.bound.run)).catch(() => undefined);
+    // Removals are queued one tick after their results were committed.
+    await new Promise((r) => setImmediate(r));
+    await Promise.all(this.removals);
+    if (this.bound && this.waiting.size === 0) {
+      // Nothing in flight: the run's setup is not needed until it runs again (it is uploaded then).
+      await this.redis.del(runKey(this.namespace, this.bound.run)).catch(() => undefined);
+      await this.dropLeftovers(this.bound.run).catch(() => undefined);
+    }
     await this.events.close();
     await this.queue.close();
     this.redis.disconnect();
+  }
+
+  /**
+   * Finished jobs of this run still in Redis once nothing is in flight. A coordinator killed
+   * between committing a result and removing its job leaves one behind, and the next
+   * coordinator never asks for it again (it is in the store). Rarely, a job of a killed
+   * coordinator that this one stopped before asking for is among them: it is redone on resume.
+   */
+  private async dropLeftovers(run: string): Promise<void> {
+    const page = 1000;
+    const leftovers: string[] = [];
+    for (let start = 0; ; start += page) {
+      const jobs = await this.queue.getJobs(["completed", "failed"], start, start + page - 1);
+      for (const job of jobs) if (job.id?.startsWith(`${run}.t`)) leftovers.push(job.id);
+      if (jobs.length < page) break;
+    }
+    await Promise.all(leftovers.map((id) => this.queue.remove(id)));
   }
 
   /** Every job of a runner belongs to one run on one dataset. */
@@ -200,7 +224,14 @@ class RedisRunner implements JobRunner {
     waiting.resolve("returnvalue" in result ? this.decode(waiting.job, result.returnvalue) : this.failed(waiting.job, result.failedReason));
     // The scheduler commits an outcome in the promise reactions that run before any
     // timer callback, so by then the result is in the run store and the job can go.
-    setImmediate(() => void this.queue.remove(id).catch(() => undefined));
+    setImmediate(() => {
+      const removal = this.queue
+        .remove(id)
+        .then(() => undefined)
+        .catch(() => undefined)
+        .finally(() => this.removals.delete(removal));
+      this.removals.add(removal);
+    });
   }
 
   private decode(job: FoldJob, returnvalue: unknown): FoldOutcome {

@@ -21,6 +21,9 @@ export class RefusedJob extends Error {
  * the job union (`JobSchema`), and `fold-thread.ts` calls the matching dispatch.
  */
 export function acceptJob(raw: unknown): FoldJob {
+  // Schemas may drop a "__proto__" key silently (a record does); a job carrying one is refused outright.
+  const protoAt = protoKeyPath(raw, []);
+  if (protoAt !== null) throw new RefusedJob(`the job has a "__proto__" key at ${protoAt.length > 0 ? protoAt.join(".") : "its top level"}`);
   const parsed = FoldJobSchema.safeParse(raw);
   if (!parsed.success) throw new RefusedJob(`the job does not match the job schema: ${parsed.error.issues.map((i) => `${i.path.join(".") || "(job)"}: ${i.message}`).join("; ")}`);
   const job = parsed.data;
@@ -32,4 +35,15 @@ export function acceptJob(raw: unknown): FoldJob {
     throw new RefusedJob(`bad parameters: ${error instanceof Error ? error.message : String(error)}`);
   }
   return job;
+}
+
+/** Path of the first own "__proto__" key in parsed JSON, or null. */
+function protoKeyPath(value: unknown, path: string[]): string[] | null {
+  if (value === null || typeof value !== "object") return null;
+  if (Object.prototype.hasOwnProperty.call(value, "__proto__")) return path;
+  for (const [key, inner] of Object.entries(value)) {
+    const found = protoKeyPath(inner, [...path, key]);
+    if (found !== null) return found;
+  }
+  return null;
 }

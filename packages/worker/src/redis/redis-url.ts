@@ -81,7 +81,7 @@ export function connectionProblem(endpoint: RedisEndpoint, error: unknown): stri
  * at start (an InputError: exit 2) before any run store or queue is touched.
  */
 export async function checkRedis(endpoint: RedisEndpoint, where = "--redis", timeoutMs = 5000): Promise<void> {
-  const client = new Redis({ ...endpoint.options, lazyConnect: true, maxRetriesPerRequest: 0, enableOfflineQueue: false, retryStrategy: () => null, connectTimeout: timeoutMs });
+  const client = new Redis({ ...endpoint.options, lazyConnect: true, enableReadyCheck: false, disconnectTimeout: 50, maxRetriesPerRequest: 0, enableOfflineQueue: false, retryStrategy: () => null, connectTimeout: timeoutMs });
   let lastError: unknown;
   client.on("error", (error: unknown) => {
     lastError = error;
