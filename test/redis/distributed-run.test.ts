@@ -139,6 +139,22 @@ describe.skipIf(redis === null)("distributed mode on a real Redis", () => {
     expect(JSON.parse(run.stdout).rows.every((r: { status: string }) => r.status === "done")).toBe(true);
   });
 
+  it("stops a fit over its time limit on the worker, records it as timed out, and the worker goes on", async () => {
+    const ns = namespace();
+    const [worker] = await startWorkers(url, ns, 1, dir);
+    processes.push(worker);
+    // 0.01 minutes over 3 folds: 0.2 s per fold, far less than 5000 unpruned trees need.
+    const slow = writePlan(
+      dir,
+      PLAN.replace("budget: { trials: 9 }\nhalving: { eta: 3 }", "budget: { trials: 2, trial_minutes: 0.01 }").replace(/families:[\s\S]*$/, "families:\n  forest: { trees: 5000, depth: { choice: [null] } }\n"),
+      "time-limit.plan.yaml",
+    );
+    const run = await cli(["run", slow, "--run-dir", join(dir, "time-limit"), "--redis", url, "--namespace", ns, "--json"]);
+    expect(run.code, run.output).toBe(0);
+    expect(JSON.parse(run.stdout).rows.map((r: { status: string }) => r.status)).toEqual(["timed_out", "timed_out"]);
+    expect(worker.child.exitCode).toBeNull();
+  });
+
   it.skipIf(!privateServers)("says clearly that a Redis password is wrong or missing, before the run folder is made", async () => {
     const server = await startRedisServer({ password: "night-secret" });
     try {

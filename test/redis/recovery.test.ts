@@ -106,6 +106,54 @@ describe.skipIf(redis === null)("distributed mode recovers from failures", () =>
     }
   });
 
+  it("lets a worker stopped with SIGTERM finish its job, or hand it back on a second signal, and exit cleanly", async () => {
+    const ns = namespace();
+    const [finisher, releaser, stayer] = (await startWorkers(url, ns, 3, dir)).map(track);
+    const connection = queueConnection(redisEndpoint(url));
+    const queue = new Queue(JOB_QUEUE, { connection, prefix: ns });
+    const events = new QueueEvents(JOB_QUEUE, { connection, prefix: ns });
+    const stalled = new Set<string>();
+    const completedBy = new Map<string, string>();
+    events.on("stalled", ({ jobId }) => stalled.add(jobId));
+    events.on("completed", ({ jobId, returnvalue }) => completedBy.set(jobId, FoldResultSchema.parse(returnvalue).worker));
+    const signalled = new Map<Spawned, string>();
+    events.on("active", ({ jobId }) => {
+      void queue.getJob(jobId).then((job) => {
+        // Two different signals: two of the same kind sent at once may arrive as one.
+        for (const [worker, signals] of [
+          [finisher, ["SIGTERM"]],
+          [releaser, ["SIGINT", "SIGTERM"]],
+        ] as const) {
+          if (signalled.has(worker) || !job?.processedBy?.endsWith(`-${worker.pid}`)) continue;
+          signalled.set(worker, jobId);
+          for (const signal of signals) worker.child.kill(signal);
+        }
+      });
+    });
+    try {
+      await events.waitUntilReady();
+      const runDir = join(dir, "workers-stopped");
+      const run = coordinator(runDir, url, ns);
+      expect(await run.exited, run.output()).toBe(0);
+      expect(await finisher.exited).toBe(0);
+      expect(await releaser.exited).toBe(0);
+      expect(stayer.child.exitCode).toBeNull();
+      const finished = signalled.get(finisher) as string;
+      const released = signalled.get(releaser) as string;
+      // The first finished its job itself; the second handed its job back at once, and
+      // another worker did it. Neither job waited for a lapsed lock.
+      expect(completedBy.get(finished)).toMatch(new RegExp(`-${finisher.pid}$`));
+      expect(completedBy.get(released)).not.toMatch(new RegExp(`-${releaser.pid}$`));
+      expect(stalled.has(finished) || stalled.has(released)).toBe(false);
+      expect(finisher.output()).toContain("stopped");
+      expect(releaser.output()).toContain("handing the jobs in progress back to the queue");
+      expect(withoutTimings(boardOf(run))).toEqual(withoutTimings(localBoard));
+    } finally {
+      await events.close();
+      await queue.close();
+    }
+  });
+
   it("collects the jobs finished while a killed coordinator was down, redoes none, and ends with the local run's result", async () => {
     const ns = namespace();
     (await startWorkers(url, ns, 2, dir)).map(track);
