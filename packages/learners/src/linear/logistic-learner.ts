@@ -2,7 +2,7 @@ import { InputError, type Rng, type TableView, type TrainView } from "@nightshif
 import { z } from "zod";
 import { FitError, type Learner, type ModelJson } from "../learner.js";
 import { designMatrix, DesignEncodingSchema, fitDesign, type DesignEncoding } from "../preprocess/design-matrix.js";
-import { rowWeights } from "./class-weights.js";
+import { classWeights } from "./class-weights.js";
 import { createLinearKernels } from "./linear-kernels.js";
 import { fitLogistic } from "./logistic.js";
 import { multiplyRows } from "./matrix-products.js";
@@ -86,7 +86,7 @@ export function fitLinear(view: TrainView, params: LogisticParams): LinearModel 
   const design = createLinearKernels(n, p, scoreCount, 3);
   designMatrix(encoding, view, { out: design.x, stride: design.stride });
   const fit = fitLogistic(
-    { design, rows: n, width: p, classOf, classCount: present.length, rowWeights: rowWeights(classOf, present.length, params.class_weight), penalty: params.l2 / n },
+    { design, rows: n, width: p, classOf, classCount: present.length, classWeights: classWeights(classOf, present.length, params.class_weight), penalty: params.l2 / n },
     { maxIterations: params.max_iterations, tolerance: params.tolerance },
   );
   const { iterations, converged, gradientNorm, value } = fit.optimisation;
