@@ -278,11 +278,15 @@ class RedisRunner implements JobRunner {
     try {
       await this.countWorkers();
       if (this.bound && this.uploaded) {
-        const present = await this.redis.exists(runKey(this.namespace, this.bound.run), packKey(this.namespace, this.bound.dataset));
-        if (present < 2) {
+        const keys = [runKey(this.namespace, this.bound.run), packKey(this.namespace, this.bound.dataset)];
+        // Renewing the expiry answers whether the keys are there: a run may outlast keepSeconds.
+        const renewed = await Promise.all(keys.map((key) => this.redis.pexpire(key, this.keepMs)));
+        if (renewed.some((found) => found === 0)) {
           this.notice(`Redis lost this run's data (restarted empty?); uploading the dataset again and queueing the ${this.waiting.size} jobs in flight again`);
           this.uploaded = undefined;
           await this.ensureUploaded();
+          // The queue's own settings went with the data; the event stream is kept short again.
+          await this.redis.hset(this.queue.keys.meta, "opts.maxLenEvents", EVENTS_KEPT);
         }
       }
       await this.collect([...this.waiting.keys()]);
