@@ -90,9 +90,11 @@ export async function checkRedis(endpoint: RedisEndpoint, where = "--redis", tim
     await client.connect();
     await client.ping();
   } catch (error) {
-    // ioredis may reject with a generic "Connection is closed" after the real cause was emitted.
-    const cause = lastError !== undefined && /Connection is closed/i.test(error instanceof Error ? error.message : "") ? lastError : error;
-    throw new InputError(where, connectionProblem(endpoint, cause));
+    // ioredis may reject with a generic "connection closed" while the real cause (a refused
+    // password, say) is emitted as an error event, just before or just after.
+    const generic = /Connection is closed|Stream isn't writeable/i.test(error instanceof Error ? error.message : "");
+    if (generic && lastError === undefined) await new Promise((r) => setTimeout(r, 100));
+    throw new InputError(where, connectionProblem(endpoint, generic && lastError !== undefined ? lastError : error));
   } finally {
     client.disconnect();
   }
