@@ -181,13 +181,15 @@ class RedisRunner implements JobRunner {
     const packAt = packKey(this.namespace, bound.dataset);
     if ((await this.redis.strlen(packAt)) !== pack.byteLength) await this.redis.set(packAt, Buffer.from(pack.buffer, pack.byteOffset, pack.byteLength), "PX", this.keepMs);
     const runAt = runKey(this.namespace, bound.run);
-    await this.redis
+    const replies = await this.redis
       .multi()
       .del(runAt)
       .hset(runAt, encodeRunSetup({ dataset: bound.dataset, metric: this.setup.metric, node: NODE_MAJOR, foldTests: this.setup.foldTests }))
       .pexpire(runAt, this.keepMs)
       .pexpire(packAt, this.keepMs)
       .exec();
+    const refused = replies?.find(([error]) => error !== null)?.[0];
+    if (refused) throw refused;
   }
 
   private async enqueue(id: string, job: FoldJob): Promise<void> {
