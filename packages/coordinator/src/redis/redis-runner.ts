@@ -20,6 +20,7 @@ import {
 import { Queue, QueueEvents } from "bullmq";
 import { Redis } from "ioredis";
 import type { JobRunner } from "../job-runner.js";
+import { uploadPack } from "./pack-upload.js";
 
 export interface RedisRunnerOptions {
   /** Namespace of the queue and keys on this Redis (the workers must use the same); default `nightshift`. */
@@ -174,19 +175,16 @@ class RedisRunner implements JobRunner {
     return this.uploaded;
   }
 
-  /** The pack once (content-addressed: an intact copy already there is kept), then the run's setup. */
+  /** The pack (once: content-addressed), then the run's setup, so a worker that sees the setup finds the pack. */
   private async upload(): Promise<void> {
     const bound = this.bound as { run: string; dataset: string };
-    const pack = this.setup.pack;
-    const packAt = packKey(this.namespace, bound.dataset);
-    if ((await this.redis.strlen(packAt)) !== pack.byteLength) await this.redis.set(packAt, Buffer.from(pack.buffer, pack.byteOffset, pack.byteLength), "PX", this.keepMs);
+    await uploadPack(this.redis, this.namespace, this.setup.pack, this.keepMs);
     const runAt = runKey(this.namespace, bound.run);
     const replies = await this.redis
       .multi()
       .del(runAt)
       .hset(runAt, encodeRunSetup({ dataset: bound.dataset, metric: this.setup.metric, node: NODE_MAJOR, foldTests: this.setup.foldTests }))
       .pexpire(runAt, this.keepMs)
-      .pexpire(packAt, this.keepMs)
       .exec();
     const refused = replies?.find(([error]) => error !== null)?.[0];
     if (refused) throw refused;
