@@ -29,7 +29,11 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
   let planName = options.planPath;
   const onSigint = (): void => {
     if (stopping) {
-      process.stderr.write("\nnightshift: stopped at once; jobs in flight are lost and will be redone on resume.\n");
+      process.stderr.write(
+        options.redis
+          ? "\nnightshift: stopped at once; the jobs in flight finish on the workers and their results are collected on resume.\n"
+          : "\nnightshift: stopped at once; jobs in flight are lost and will be redone on resume.\n",
+      );
       process.exit(130);
     }
     stopping = true;

@@ -49,8 +49,14 @@ const HEARTBEAT_MS = 5000;
 /**
  * A worker process's queue side: takes jobs of every run on its Redis namespace, checks
  * them (`acceptJob`), fetches what the run needs (pack and folds, cached), and runs the
- * fit on a thread of its own pool. The main thread only waits, so BullMQ renews job locks
- * during the longest fit, and a fit over its time limit is stopped by ending its thread.
+ * fit on a thread of its own pool (compiled `dist/redis/fold-thread.js`). The main thread
+ * only waits, so BullMQ renews job locks during the longest fit: the guarantee BullMQ's
+ * sandboxed processors give, kept with a thread pool of our own for two reasons. A fit over
+ * its time limit must be stopped, and only ending its thread stops a synchronous fit
+ * (BullMQ 6.7's sandbox cancellation aborts a signal the fit would never look at). And
+ * every thread reads the one copy of the pack the process holds, in a SharedArrayBuffer,
+ * where sandboxed processors each hold their own. Threads die with their process, so a
+ * killed worker leaves no fit running behind it.
  *
  * Outcomes:
  * - a refused job (not valid, another Node.js major, bad parameters) fails at once, never run;
