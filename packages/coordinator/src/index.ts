@@ -5,3 +5,5 @@ export * from "./run-folder.js";
 export * from "./run-search.js";
 export * from "./scheduler.js";
 export * from "./trials.js";
+export * from "./redis/redis-runner.js";
+export * from "./redis/pack-upload.js";

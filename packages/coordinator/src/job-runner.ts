@@ -1,5 +1,5 @@
 import type { FoldJob } from "@nightshift/core";
-import type { FoldOutcome } from "@nightshift/worker";
+import { type FoldOutcome, timeLimitMessage } from "@nightshift/worker";
 
 /**
  * Where fold jobs run: local worker threads, or (later) Redis workers. The scheduler
@@ -15,7 +15,7 @@ export interface JobRunner {
 /** A job over its time limit: recorded as timed out, its thread replaced. */
 export class JobTimeoutError extends Error {
   constructor(readonly seconds: number) {
-    super(`stopped after ${seconds.toFixed(0)} s (the plan's trial_minutes limit)`);
+    super(timeLimitMessage(seconds));
     this.name = "JobTimeoutError";
   }
 }
