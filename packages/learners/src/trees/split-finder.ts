@@ -147,7 +147,7 @@ export class SplitFinder {
         }
         if (!(score > best)) continue;
         best = score;
-        this.record(score, feature, bins[j], rowsLeft, l0, l1, withMissing);
+        this.record(score, feature, cutBetween(bins, j, values), rowsLeft, l0, l1, withMissing);
       }
     }
   }
@@ -194,7 +194,7 @@ export class SplitFinder {
       const o = base + bins[j] * stride;
       cumulativeRows += hist[o];
       for (let k = 0; k < width; k++) cumulative[k] += hist[o + 1 + k];
-      this.considerCut(feature, bins[j], cumulativeRows, false);
+      this.considerCut(feature, cutBetween(bins, j, values), cumulativeRows, false);
     }
   }
 
@@ -321,4 +321,14 @@ function sortByKey(order: Uint8Array, count: number, keys: Float64Array, scratch
     to = swap;
   }
   if (from !== order) order.set(from.subarray(0, count));
+}
+
+/**
+ * The threshold bin of a cut after the node's j-th non-empty bin: half-way across the bins
+ * that are empty in this node, so rows unseen in training that fall in the gap go to the
+ * nearer side (as exact CART implementations cut half-way between neighbouring values).
+ * Training rows are split the same whatever bin of the gap is chosen.
+ */
+function cutBetween(bins: Uint8Array, j: number, values: number): number {
+  return j + 1 < values ? (bins[j] + bins[j + 1] - 1) >> 1 : bins[j];
 }
