@@ -1,6 +1,6 @@
 import type { Rng, TableView, Task, TrainView } from "@nightshift/core";
 import { type BinMapper, binCount, fitBinMapper } from "../binning/bin-mapper.js";
-import { FitError, type Learner } from "../learner.js";
+import { type FitContext, FitError, type Learner } from "../learner.js";
 import { binTrainingRows } from "./bin-search.js";
 import { TreeGrower } from "./grow-tree.js";
 import { histogramLayout, rowMajorBins } from "./histogram.js";
@@ -32,7 +32,7 @@ export interface BoostedModel {
 /** Relative improvement of the validation loss that counts as progress for early stopping. */
 const IMPROVEMENT = 1e-7;
 
-export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): BoostedModel {
+export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng, context?: FitContext): BoostedModel {
   const n = view.rows.length;
   if (n < 2) throw new FitError("boosted", `needs at least 2 training rows (got ${n})`);
   const target = view.target;
@@ -83,11 +83,22 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
   // Bins are placed on the fitting rows only; every training position is then binned with them.
   const fitRows = new Uint32Array(fitPositions.length);
   for (let i = 0; i < fitPositions.length; i++) fitRows[i] = view.rows[fitPositions[i]];
-  const mapper = fitBinMapper({ columns: view.columns, rows: fitRows }, params.bins, rng);
+  // Bins depend on the fitting rows alone (never on rng), so without an early-stopping slice the
+  // fold's bins are shared through the worker's memo by every boosted fit on that fold.
+  const computeBins = () => {
+    const fitted = fitBinMapper({ columns: view.columns, rows: fitRows }, params.bins);
+    const counts = Uint16Array.from(fitted.features, binCount);
+    // Local bins: the missing values of feature f go to bin counts[f], right after its value bins.
+    return { mapper: fitted, valueBins: counts, columnBins: binTrainingRows(fitted, view, counts) };
+  };
+  const memoKey = context && validation === null ? `${context.key}:boosted-bins:${params.bins}:${n}` : null;
+  let binning = memoKey ? (context?.memo.get(memoKey) as ReturnType<typeof computeBins> | undefined) : undefined;
+  if (!binning) {
+    binning = computeBins();
+    if (memoKey) context?.memo.set(memoKey, binning);
+  }
+  const { mapper, valueBins, columnBins } = binning;
   const features = mapper.features.length;
-  const valueBins = Uint16Array.from(mapper.features, binCount);
-  // Local bins: the missing values of feature f go to bin valueBins[f], right after its value bins.
-  const columnBins = binTrainingRows(mapper, view, valueBins);
   const categorical = Uint8Array.from(mapper.features, (bins) => (bins.kind === "categorical" ? 1 : 0));
   const usable: number[] = [];
   for (let f = 0; f < features; f++) if (takesTwoBins(columnBins[f], fitPositions)) usable.push(f);

@@ -1,6 +1,6 @@
 import { createRng, predictionWidth, type Rng, type TableView, type Task, type TrainView } from "@nightshift/core";
-import { type BinMapper, binRows, fitBinMapper } from "../binning/bin-mapper.js";
-import { FitError } from "../learner.js";
+import { type BinMapper, binRows, binTrainingRows } from "../binning/bin-mapper.js";
+import { type FitContext, FitError } from "../learner.js";
 import { type GrowData, TreeGrower } from "./grow-tree.js";
 import { CRITERION_ENTROPY, CRITERION_GINI, CRITERION_SQUARED_ERROR, type CriterionCode } from "./impurity.js";
 import { addTreePredictions } from "./predict-tree.js";
@@ -46,13 +46,13 @@ const SEED_RANGE = 2 ** 32;
  * Per tree: a bootstrap sample (n·row_sample draws with replacement, kept as per-row counts;
  * Breiman 2001), or without bootstrap n·row_sample distinct rows (all rows when row_sample = 1).
  */
-export function fitTrees(family: TreeFamily, view: TrainView, settings: EnsembleSettings, rng: Rng): TreeEnsembleModel {
+export function fitTrees(family: TreeFamily, view: TrainView, settings: EnsembleSettings, rng: Rng, context?: FitContext): TreeEnsembleModel {
   const n = view.rows.length;
   if (n === 0) throw new FitError(family, "no training rows");
   const seeds = new Float64Array(settings.trees);
   for (let t = 0; t < settings.trees; t++) seeds[t] = rng.int(SEED_RANGE);
-  const mapper = fitBinMapper(view, settings.bins, createRng(rng.int(SEED_RANGE), "binning"));
-  const binned = binRows(mapper, view);
+  // Bins depend on the training rows alone (no draw from rng), so a fold's bins are reused from the worker's memo.
+  const { mapper, binned } = binTrainingRows(view, settings.bins, context);
   const usable: number[] = [];
   for (let f = 0; f < binned.binCounts.length; f++) if (binned.binCounts[f] >= 2) usable.push(f);
   if (usable.length === 0) throw new FitError(family, "no usable feature: every feature is constant or missing in the training rows");
