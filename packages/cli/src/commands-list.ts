@@ -2,6 +2,8 @@ import { registerVerb } from "./commands.js";
 import { boardVerb } from "./verbs/board.js";
 import { demoVerb } from "./verbs/demo.js";
 import { initVerb } from "./verbs/init.js";
+import { reportVerb } from "./verbs/report.js";
 import { runVerb } from "./verbs/run.js";
+import { serveVerb } from "./verbs/serve.js";
 
-for (const verb of [demoVerb, initVerb, runVerb, boardVerb]) registerVerb(verb);
+for (const verb of [demoVerb, initVerb, runVerb, boardVerb, serveVerb, reportVerb]) registerVerb(verb);

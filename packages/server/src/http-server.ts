@@ -1,0 +1,248 @@
+import { buildBoard } from "@nightshift/aggregator";
+import { RunStore } from "@nightshift/store";
+import Fastify, { type FastifyInstance, type FastifyReply } from "fastify";
+import { type ZodType, z } from "zod";
+import { presentedToken, TOKEN_COOKIE, tokenMatches } from "./access.js";
+import { boardPage } from "./board-page.js";
+import { type Asset, DashboardAssets } from "./dashboard-assets.js";
+import { HttpError } from "./http-errors.js";
+import { RunCatalog, RUN_ID_PATTERN } from "./run-catalog.js";
+import { ensemblesOf, isStartedRun, runDetail, runSummary, trialDetail } from "./run-views.js";
+import { RunWatches, type WatchOptions } from "./run-watch.js";
+import {
+  BoardPageSchema,
+  BoardQuerySchema,
+  EmptyQuerySchema,
+  EnsemblesResponseSchema,
+  type ErrorResponse,
+  ErrorResponseSchema,
+  EventsQuerySchema,
+  RunDetailSchema,
+  RunListSchema,
+  type RunSummary,
+  TrialDetailSchema,
+  TrialQuerySchema,
+} from "./schemas.js";
+
+export interface ServerOptions {
+  /** The folder whose subfolders are run folders. */
+  readonly runsDir: string;
+  /** When set, every request must present it (bearer header, `?token=`, or the cookie set by the dashboard). */
+  readonly token?: string;
+  readonly watch?: Partial<WatchOptions>;
+  /** Milliseconds since the epoch; a test fixes it to check pace and ETA. */
+  readonly clock?: () => number;
+}
+
+/** Longest request line (path and query) accepted. */
+export const MAX_URL_LENGTH = 2048;
+/** Largest request body accepted: the API is read-only and takes none. */
+export const MAX_BODY_BYTES = 1024;
+
+const SECURITY_HEADERS: Record<string, string> = {
+  "x-content-type-options": "nosniff",
+  "referrer-policy": "no-referrer",
+  "x-frame-options": "DENY",
+  "cross-origin-resource-policy": "same-origin",
+};
+
+// Vega evaluates chart expressions through its interpreter (no eval); vega-embed adds inline styles.
+const PAGE_POLICY = "default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; img-src 'self' data: blob:; connect-src 'self'; object-src 'none'; base-uri 'none'; frame-ancestors 'none'; form-action 'none'";
+
+function parseQuery<T extends ZodType>(schema: T, query: unknown): z.output<T> {
+  const parsed = schema.safeParse(query);
+  if (!parsed.success) {
+    const issue = parsed.error.issues[0];
+    const key = issue.path.length > 0 ? issue.path.join(".") : issue.code === "unrecognized_keys" ? (issue as { keys?: string[] }).keys?.join(", ") : "query";
+    throw new HttpError("bad_request", `query ${key}: ${issue.message}`);
+  }
+  return parsed.data;
+}
+
+function sendJson<T extends ZodType>(reply: FastifyReply, schema: T, value: z.input<T>): FastifyReply {
+  return reply.type("application/json; charset=utf-8").header("cache-control", "no-store").send(JSON.stringify(schema.parse(value)));
+}
+
+function sendAsset(reply: FastifyReply, asset: Asset | null, what: string, cache: string): FastifyReply {
+  if (asset === null) throw new HttpError("not_found", `no ${what}`);
+  return reply.type(asset.type).header("cache-control", cache).send(asset.body);
+}
+
+/**
+ * The HTTP face of a folder of runs (DESIGN.md, HTTP): the JSON API, a server-sent events
+ * stream per run, and the dashboard. It only reads run stores (each request opens the store
+ * read-only), so it serves runs another process is writing.
+ */
+export async function createServer(options: ServerOptions): Promise<FastifyInstance> {
+  const catalog = new RunCatalog(options.runsDir);
+  const watches = new RunWatches(options.watch);
+  const assets = new DashboardAssets();
+  const clock = options.clock ?? Date.now;
+  const app = Fastify({ logger: false, bodyLimit: MAX_BODY_BYTES, routerOptions: { maxParamLength: 200 }, return503OnClosing: true });
+
+  app.addHook("onRequest", async (request, reply) => {
+    for (const [name, value] of Object.entries(SECURITY_HEADERS)) reply.header(name, value);
+    if (request.url.length > MAX_URL_LENGTH) throw new HttpError("too_large", `the request line is longer than ${MAX_URL_LENGTH} characters`);
+    if (options.token === undefined) return;
+    const presented = presentedToken(request.headers, request.query);
+    if (!tokenMatches(options.token, presented)) {
+      reply.header("www-authenticate", 'Bearer realm="nightshift"');
+      throw new HttpError("unauthorized", "this server needs its token: an Authorization: Bearer header, or ?token= once in the browser");
+    }
+    if ((request.query as { token?: unknown }).token !== undefined) {
+      reply.header("set-cookie", `${TOKEN_COOKIE}=${encodeURIComponent(options.token)}; HttpOnly; SameSite=Strict; Path=/`);
+    }
+  });
+
+  app.setErrorHandler((error, _request, reply) => {
+    let body: ErrorResponse;
+    let status: number;
+    if (error instanceof HttpError) {
+      body = { error: error.kind, message: error.message };
+      status = error.status;
+    } else if (error instanceof RangeError) {
+      body = { error: "bad_request", message: error.message };
+      status = 400;
+    } else {
+      const code = (error as { statusCode?: number }).statusCode;
+      if (code === 413) {
+        body = { error: "too_large", message: `request bodies are limited to ${MAX_BODY_BYTES} bytes` };
+        status = 413;
+      } else if (code !== undefined && code >= 400 && code < 500) {
+        body = { error: "bad_request", message: (error as Error).message };
+        status = code;
+      } else {
+        body = { error: "internal", message: "internal error; see the server's log" };
+        status = 500;
+        console.error(error);
+      }
+    }
+    return reply.status(status).type("application/json; charset=utf-8").send(JSON.stringify(ErrorResponseSchema.parse(body)));
+  });
+
+  app.setNotFoundHandler((request, reply) =>
+    reply
+      .status(404)
+      .type("application/json; charset=utf-8")
+      .send(JSON.stringify(ErrorResponseSchema.parse({ error: "not_found", message: `no route ${request.method} ${request.url.split("?")[0]}` }))),
+  );
+
+  app.addHook("onClose", async () => watches.close());
+
+  /** The folder of a started run, or the 400/404 that says why not. */
+  const folderOf = (id: string): string => {
+    if (!RUN_ID_PATTERN.test(id)) throw new HttpError("bad_request", "a run id is a run folder's name: letters, digits, '.', '_' and '-'");
+    const folder = catalog.folderOf(id);
+    if (folder === null) throw new HttpError("not_found", `no run '${id}' in the runs folder`);
+    return folder;
+  };
+
+  const withRun = <T>(id: string, read: (store: RunStore, folder: string) => T): T => {
+    const folder = folderOf(id);
+    const store = RunStore.open(folder, { readonly: true });
+    try {
+      if (!isStartedRun(store)) throw new HttpError("not_found", `run '${id}' has not started yet`);
+      return read(store, folder);
+    } finally {
+      store.close();
+    }
+  };
+
+  app.get("/api/runs", async (request, reply) => {
+    parseQuery(EmptyQuerySchema, request.query);
+    const runs: RunSummary[] = [];
+    for (const id of catalog.ids()) {
+      try {
+        runs.push(withRun(id, (store, folder) => runSummary(id, store, watches.watch(folder).activity, clock())));
+      } catch (error) {
+        // A folder whose run has not started (or whose store is being created) is not listed yet.
+        if (!(error instanceof HttpError)) throw error;
+      }
+    }
+    return sendJson(reply, RunListSchema, { runs });
+  });
+
+  app.get<{ Params: { id: string } }>("/api/runs/:id", async (request, reply) => {
+    parseQuery(EmptyQuerySchema, request.query);
+    const detail = withRun(request.params.id, (store, folder) => runDetail(request.params.id, store, watches.watch(folder).activity, clock()));
+    return sendJson(reply, RunDetailSchema, detail);
+  });
+
+  app.get<{ Params: { id: string } }>("/api/runs/:id/board", async (request, reply) => {
+    const query = parseQuery(BoardQuerySchema, request.query);
+    const page = withRun(request.params.id, (store) => boardPage(buildBoard(store), query));
+    return sendJson(reply, BoardPageSchema, page);
+  });
+
+  app.get<{ Params: { id: string; trial: string } }>("/api/runs/:id/trials/:trial", async (request, reply) => {
+    const query = parseQuery(TrialQuerySchema, request.query);
+    const { id, trial } = request.params;
+    const detail = withRun(id, (store) => {
+      if (!/^\d{1,9}$/.test(trial)) throw new HttpError("bad_request", `a trial is a whole number (got '${trial}')`);
+      const found = trialDetail(store, Number(trial), query);
+      if (found === null) throw new HttpError("not_found", `run '${id}' has no trial ${trial}`);
+      return found;
+    });
+    return sendJson(reply, TrialDetailSchema, detail);
+  });
+
+  app.get<{ Params: { id: string } }>("/api/runs/:id/ensembles", async (request, reply) => {
+    parseQuery(EmptyQuerySchema, request.query);
+    return sendJson(reply, EnsemblesResponseSchema, withRun(request.params.id, (store) => ensemblesOf(store)));
+  });
+
+  app.get<{ Params: { id: string } }>("/api/runs/:id/events", async (request, reply) => {
+    const query = parseQuery(EventsQuerySchema, request.query);
+    const lastEventId = request.headers["last-event-id"];
+    let after = query.after ?? 0;
+    if (typeof lastEventId === "string") {
+      if (!/^\d{1,15}$/.test(lastEventId)) throw new HttpError("bad_request", "Last-Event-ID must be an event id");
+      after = Number(lastEventId);
+    }
+    const folder = withRun(request.params.id, (_store, f) => f);
+    if (!watches.hasRoom()) throw new HttpError("unavailable", "too many event streams are open; try again later");
+    reply.hijack();
+    const raw = reply.raw;
+    raw.writeHead(200, {
+      ...SECURITY_HEADERS,
+      "content-type": "text/event-stream; charset=utf-8",
+      "cache-control": "no-store",
+      connection: "keep-alive",
+      "x-accel-buffering": "no",
+    });
+    raw.write("retry: 3000\n\n");
+    watches.stream(folder, raw, after, query.kinds === undefined ? null : new Set(query.kinds.split(",")));
+  });
+
+  app.get("/", async (request, reply) => {
+    parseQuery(EmptyQuerySchema, request.query);
+    reply.header("content-security-policy", PAGE_POLICY);
+    return sendAsset(reply, assets.page(), "dashboard page (static/index.html)", "no-store");
+  });
+
+  app.get<{ Params: { file: string } }>("/assets/:file", async (request, reply) =>
+    sendAsset(reply, assets.asset(request.params.file), `asset '${request.params.file}'`, "no-cache"),
+  );
+
+  app.get<{ Params: { file: string } }>("/vendor/:file", async (request, reply) =>
+    sendAsset(reply, assets.vendorBundle(request.params.file), `bundle '${request.params.file}'`, "public, max-age=86400"),
+  );
+
+  await app.ready();
+  return app;
+}
+
+export interface ListenOptions extends ServerOptions {
+  readonly host: string;
+  readonly port: number;
+}
+
+/** Starts serving; resolves with the address once listening. */
+export async function startServer(options: ListenOptions): Promise<{ app: FastifyInstance; url: string }> {
+  const app = await createServer(options);
+  await app.listen({ host: options.host, port: options.port });
+  const address = app.server.address();
+  const port = typeof address === "object" && address !== null ? address.port : options.port;
+  const host = options.host.includes(":") ? `[${options.host}]` : options.host;
+  return { app, url: `http://${host}:${port}/` };
+}
