@@ -1,5 +1,5 @@
 import { buildBoard } from "@nightshift/aggregator";
-import { RunStore } from "@nightshift/store";
+import type { RunStore } from "@nightshift/store";
 import Fastify, { type FastifyInstance, type FastifyReply } from "fastify";
 import { type ZodType, z } from "zod";
 import { presentedToken, TOKEN_COOKIE, tokenMatches } from "./access.js";
@@ -7,7 +7,9 @@ import { boardPage } from "./board-page.js";
 import { type Asset, DashboardAssets } from "./dashboard-assets.js";
 import { HttpError } from "./http-errors.js";
 import { RunCatalog, RUN_ID_PATTERN } from "./run-catalog.js";
-import { ensemblesOf, isStartedRun, runDetail, runSummary, trialDetail } from "./run-views.js";
+import { RunCache } from "./run-cache.js";
+import { ensemblesOf, isStartedRun, readRunTables, runDetail, runSummary, trialDetail } from "./run-views.js";
+import type { RunActivity } from "./run-activity.js";
 import { RunWatches, type WatchOptions } from "./run-watch.js";
 import {
   BoardPageSchema,
@@ -70,13 +72,14 @@ function sendAsset(reply: FastifyReply, asset: Asset | null, what: string, cache
 
 /**
  * The HTTP face of a folder of runs (DESIGN.md, HTTP): the JSON API, a server-sent events
- * stream per run, and the dashboard. It only reads run stores (each request opens the store
- * read-only), so it serves runs another process is writing.
+ * stream per run, and the dashboard. It only reads run stores (read-only connections), so it
+ * serves runs another process is writing.
  */
 export async function createServer(options: ServerOptions): Promise<FastifyInstance> {
   const catalog = new RunCatalog(options.runsDir);
   const watches = new RunWatches(options.watch);
   const assets = new DashboardAssets();
+  const cache = new RunCache();
   const clock = options.clock ?? Date.now;
   const app = Fastify({ logger: false, bodyLimit: MAX_BODY_BYTES, routerOptions: { maxParamLength: 200 }, return503OnClosing: true });
 
@@ -137,26 +140,31 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
     return folder;
   };
 
-  const withRun = <T>(id: string, read: (store: RunStore, folder: string) => T): T => {
+  /** Reads a started run through its watch's connection (kept open while the run is looked at). */
+  const withRun = <T>(id: string, read: (store: RunStore, folder: string, activity: RunActivity) => T): T => {
     const folder = folderOf(id);
-    const store = RunStore.open(folder, { readonly: true });
+    const watch = watches.watch(folder);
     try {
+      const store = watch.reader();
       if (!isStartedRun(store)) throw new HttpError("not_found", `run '${id}' has not started yet`);
-      return read(store, folder);
-    } finally {
-      store.close();
+      return read(store, folder, watch.activity);
+    } catch (error) {
+      if (!(error instanceof HttpError) && !(error instanceof RangeError)) watch.resetReader();
+      throw error;
     }
   };
+
+  const boardOf = (store: RunStore, folder: string) => cache.get(folder, "board", () => buildBoard(store));
+  const tablesOf = (store: RunStore, folder: string) => cache.get(folder, "tables", () => readRunTables(store));
 
   app.get("/api/runs", async (request, reply) => {
     parseQuery(EmptyQuerySchema, request.query);
     const runs: RunSummary[] = [];
     for (const id of catalog.ids()) {
       try {
-        runs.push(withRun(id, (store, folder) => runSummary(id, store, watches.watch(folder).activity, clock())));
-      } catch (error) {
-        // A folder whose run has not started (or whose store is being created) is not listed yet.
-        if (!(error instanceof HttpError)) throw error;
+        runs.push(withRun(id, (store, folder, activity) => runSummary(id, tablesOf(store, folder), activity, clock())));
+      } catch {
+        // A folder whose run has not started, or whose store is being created, is not listed yet.
       }
     }
     return sendJson(reply, RunListSchema, { runs });
@@ -164,22 +172,22 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
 
   app.get<{ Params: { id: string } }>("/api/runs/:id", async (request, reply) => {
     parseQuery(EmptyQuerySchema, request.query);
-    const detail = withRun(request.params.id, (store, folder) => runDetail(request.params.id, store, watches.watch(folder).activity, clock()));
+    const detail = withRun(request.params.id, (store, folder, activity) => runDetail(request.params.id, tablesOf(store, folder), activity, clock()));
     return sendJson(reply, RunDetailSchema, detail);
   });
 
   app.get<{ Params: { id: string } }>("/api/runs/:id/board", async (request, reply) => {
     const query = parseQuery(BoardQuerySchema, request.query);
-    const page = withRun(request.params.id, (store) => boardPage(buildBoard(store), query));
+    const page = withRun(request.params.id, (store, folder) => boardPage(boardOf(store, folder), query));
     return sendJson(reply, BoardPageSchema, page);
   });
 
   app.get<{ Params: { id: string; trial: string } }>("/api/runs/:id/trials/:trial", async (request, reply) => {
     const query = parseQuery(TrialQuerySchema, request.query);
     const { id, trial } = request.params;
-    const detail = withRun(id, (store) => {
+    const detail = withRun(id, (store, folder) => {
       if (!/^\d{1,9}$/.test(trial)) throw new HttpError("bad_request", `a trial is a whole number (got '${trial}')`);
-      const found = trialDetail(store, Number(trial), query);
+      const found = trialDetail(store, Number(trial), query, boardOf(store, folder), tablesOf(store, folder).results);
       if (found === null) throw new HttpError("not_found", `run '${id}' has no trial ${trial}`);
       return found;
     });
@@ -188,7 +196,7 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
 
   app.get<{ Params: { id: string } }>("/api/runs/:id/ensembles", async (request, reply) => {
     parseQuery(EmptyQuerySchema, request.query);
-    return sendJson(reply, EnsemblesResponseSchema, withRun(request.params.id, (store) => ensemblesOf(store)));
+    return sendJson(reply, EnsemblesResponseSchema, withRun(request.params.id, (store, folder) => ensemblesOf(tablesOf(store, folder))));
   });
 
   app.get<{ Params: { id: string } }>("/api/runs/:id/events", async (request, reply) => {

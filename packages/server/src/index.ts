@@ -5,6 +5,7 @@ export * from "./http-server.js";
 export * from "./report/report-html.js";
 export * from "./report/render-svg.js";
 export * from "./run-activity.js";
+export * from "./run-cache.js";
 export * from "./run-catalog.js";
 export * from "./run-progress.js";
 export * from "./run-targets.js";

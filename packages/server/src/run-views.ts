@@ -1,6 +1,6 @@
-import { type Board, buildBoard, EnsembleSummarySchema, runFacts } from "@nightshift/aggregator";
-import { TaskSchema } from "@nightshift/core";
-import type { RunStore } from "@nightshift/store";
+import { type Board, buildBoard, EnsembleSummarySchema, type RunFacts, runFacts } from "@nightshift/aggregator";
+import { type Task, TaskSchema } from "@nightshift/core";
+import type { RunStore, TrialRecord } from "@nightshift/store";
 import type { RunActivity } from "./run-activity.js";
 import { runProgress } from "./run-progress.js";
 import { pooledPredictions, runTargets } from "./run-targets.js";
@@ -15,8 +15,8 @@ import {
 import { finiteOrNull, trialDiagnostics } from "./trial-diagnostics.js";
 
 /*
- * The server's views of one run store: plain functions of an open store, shared by the
- * HTTP routes and the report.
+ * The server's views of one run: the tables read from its store, and plain functions of
+ * them, shared by the HTTP routes and the report.
  */
 
 /** Whether a store holds a started run (its meta has what the board needs). */
@@ -31,22 +31,50 @@ function planOf(store: RunStore): Record<string, unknown> {
   return plan !== null && typeof plan === "object" && !Array.isArray(plan) ? (plan as Record<string, unknown>) : {};
 }
 
-export function runSummary(id: string, store: RunStore, activity: RunActivity, now: number): RunSummary {
-  const facts = runFacts(store);
-  const plan = planOf(store);
-  const state = store.getMeta("state") ?? "created";
+/** What the run views need from a store, read in one go (and cached by the server while the store is unchanged). */
+export interface RunTables {
+  readonly facts: RunFacts;
+  readonly task: Task;
+  readonly state: string;
+  readonly createdAt: string | null;
+  readonly plan: Record<string, unknown>;
+  readonly trials: TrialRecord[];
+  readonly results: ReturnType<RunStore["foldScores"]>;
+  readonly halvingDecisions: number;
+  readonly ensembles: EnsemblesResponse["ensembles"];
+  readonly holdout: RunDetail["holdout"];
+}
+
+export function readRunTables(store: RunStore): RunTables {
+  const holdout = store.artifact("holdout");
+  return {
+    facts: runFacts(store),
+    task: TaskSchema.parse(store.getMeta("task")),
+    state: store.getMeta("state") ?? "created",
+    createdAt: store.getMeta("created_at") ?? null,
+    plan: planOf(store),
+    trials: store.trials(),
+    results: store.foldScores(),
+    halvingDecisions: store.halvingDecisions().length,
+    ensembles: store.artifacts("ensemble").map((a) => ({ name: a.name, created_at: a.createdAt, ...EnsembleSummarySchema.parse(a.data) })),
+    holdout: holdout ? HoldoutSchema.parse(holdout.data) : null,
+  };
+}
+
+export function runSummary(id: string, tables: RunTables, activity: RunActivity, now: number): RunSummary {
+  const { facts, plan, state } = tables;
   return {
     id,
     metric: facts.metric,
     direction: facts.direction,
-    task: TaskSchema.parse(store.getMeta("task")),
+    task: tables.task,
     state,
-    created_at: store.getMeta("created_at") ?? null,
+    created_at: tables.createdAt,
     last_event_at: activity.lastEventAt,
     last_event_id: activity.lastId,
     ...runProgress({
-      trials: store.trials(),
-      results: store.foldScores(),
+      trials: tables.trials,
+      results: tables.results,
       foldCount: facts.foldCount,
       halving: plan.halving !== undefined && plan.halving !== null,
       direction: facts.direction,
@@ -57,47 +85,39 @@ export function runSummary(id: string, store: RunStore, activity: RunActivity, n
   };
 }
 
-function holdoutOf(store: RunStore): RunDetail["holdout"] {
-  const stored = store.artifact("holdout");
-  return stored ? HoldoutSchema.parse(stored.data) : null;
-}
-
-export function runDetail(id: string, store: RunStore, activity: RunActivity, now: number): RunDetail {
-  const summary = runSummary(id, store, activity, now);
-  const families = [...new Set(store.trials().map((t) => t.family))].sort();
+export function runDetail(id: string, tables: RunTables, activity: RunActivity, now: number): RunDetail {
   return {
-    ...summary,
-    fold_count: runFacts(store).foldCount,
-    plan: planOf(store),
-    families,
+    ...runSummary(id, tables, activity, now),
+    fold_count: tables.facts.foldCount,
+    plan: tables.plan,
+    families: [...new Set(tables.trials.map((t) => t.family))].sort(),
     timeline: activity.timeline.map((p) => ({ ...p, score: p.score === null ? null : finiteOrNull(p.score) })),
-    halving_decisions: store.halvingDecisions().length,
-    ensembles: store.artifacts("ensemble").length,
-    holdout: holdoutOf(store),
+    halving_decisions: tables.halvingDecisions,
+    ensembles: tables.ensembles.length,
+    holdout: tables.holdout,
   };
 }
 
-export function ensemblesOf(store: RunStore): EnsemblesResponse {
-  const facts = runFacts(store);
-  return {
-    run: facts.runId,
-    metric: facts.metric,
-    direction: facts.direction,
-    ensembles: store.artifacts("ensemble").map((a) => ({ name: a.name, created_at: a.createdAt, ...EnsembleSummarySchema.parse(a.data) })),
-    holdout: holdoutOf(store),
-  };
+export function ensemblesOf(tables: RunTables): EnsemblesResponse {
+  const { facts } = tables;
+  return { run: facts.runId, metric: facts.metric, direction: facts.direction, ensembles: tables.ensembles, holdout: tables.holdout };
 }
 
 /**
  * One trial: its board row (rank and tie as on the whole board), per-fold results, halving
  * decisions and, when asked, what its out-of-fold predictions say. Null for an unknown trial.
  */
-export function trialDetail(store: RunStore, trial: number, query: Pick<TrialQuery, "curves" | "threshold" | "bins" | "strategy" | "positive" | "points">, board: Board = buildBoard(store)): TrialDetail | null {
+export function trialDetail(
+  store: RunStore,
+  trial: number,
+  query: Pick<TrialQuery, "curves" | "threshold" | "bins" | "strategy" | "positive" | "points">,
+  board: Board = buildBoard(store),
+  results: RunTables["results"] = store.foldScores(),
+): TrialDetail | null {
   const row = board.rows.find((r) => r.trial === trial);
   if (!row) return null;
   const repeats = new Map(store.folds().map((f) => [f.fold, f.repeat]));
-  const folds = store
-    .foldScores()
+  const folds = results
     .filter((r) => r.trial === trial)
     .map((r) => ({ fold: r.fold, repeat: repeats.get(r.fold) ?? 0, score: r.score === null ? null : finiteOrNull(r.score), fit_s: r.fitSeconds, predict_s: r.predictSeconds, error: r.error }));
   const halving = store

@@ -33,7 +33,7 @@ function frame(event: StoredEvent): string {
 
 /**
  * The event log of one run as this server has read it: a cursor, the activity folded from it,
- * and the clients streaming it. Every stream of a run is fed from one read of the store, so
+ * the clients streaming it, and one read-only connection to the store for all of it. Every stream of a run is fed from one read of the store, so
  * the cost of a poll does not grow with the number of clients, and a client costs only its
  * cursor and its socket's buffer (bounded: a client that falls behind is dropped).
  */
@@ -53,14 +53,21 @@ export class RunWatch {
     return this.streams.size;
   }
 
-  private openStore(): RunStore {
+  /** The watch's read-only connection to the run store, shared with the requests about this run. */
+  reader(): RunStore {
     this.store ??= RunStore.open(this.folder, { readonly: true });
     return this.store;
   }
 
+  /** Drops the connection (after an error); the next read opens a new one. */
+  resetReader(): void {
+    this.store?.close();
+    this.store = null;
+  }
+
   /** Reads the events committed since the last read (by any process), folds them in and sends them to every stream. */
   refresh(): void {
-    const store = this.openStore();
+    const store = this.reader();
     for (;;) {
       const events = store.events(this.activity.lastId, PAGE);
       if (events.length === 0) break;
@@ -98,7 +105,7 @@ export class RunWatch {
   subscribe(response: ServerResponse, after: number, kinds: ReadonlySet<string> | null): void {
     this.refresh();
     const stream: Stream = { response, sent: after, kinds };
-    const store = this.openStore();
+    const store = this.reader();
     while (stream.sent < this.activity.lastId && !response.writableEnded) {
       const events = store.events(stream.sent, PAGE).filter((e) => e.id <= this.activity.lastId);
       if (events.length === 0) break;

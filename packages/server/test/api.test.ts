@@ -6,6 +6,7 @@ import { unpackDataset } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
 import type { FastifyInstance } from "fastify";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { serveVerb } from "../../cli/src/verbs/serve.js";
 import { createServer } from "../src/http-server.js";
 import { BoardPageSchema, EnsemblesResponseSchema, RunDetailSchema, RunListSchema, TrialDetailSchema } from "../src/schemas.js";
 import { CLI, type RunFixture, runShortSearch, tempDir } from "./run-fixture.js";
@@ -346,12 +347,15 @@ describe("a server with a token", () => {
 
 describe("nightshift serve", () => {
   it("refuses a non-loopback host without a token, or with a short one", async () => {
-    const open = spawnSync(process.execPath, [CLI, "serve", "--runs", fixture.runsDir, "--host", "0.0.0.0"], { encoding: "utf8", env: { ...process.env, NIGHTSHIFT_TOKEN: "" } });
-    expect(open.status).toBe(2);
-    expect(open.stderr).toMatch(/--token/);
-    const short = spawnSync(process.execPath, [CLI, "serve", "--runs", fixture.runsDir, "--token", "abc"], { encoding: "utf8" });
-    expect(short.status).toBe(2);
-    expect(short.stderr).toMatch(/at least 16 characters/);
+    const saved = process.env.NIGHTSHIFT_TOKEN;
+    delete process.env.NIGHTSHIFT_TOKEN;
+    try {
+      await expect(serveVerb.run(["--runs", fixture.runsDir, "--host", "0.0.0.0"])).rejects.toThrow(/--token/);
+      await expect(serveVerb.run(["--runs", fixture.runsDir, "--token", "abc"])).rejects.toThrow(/at least 16 characters/);
+      await expect(serveVerb.run(["--runs", fixture.runsDir, "--port", "http"])).rejects.toThrow(/port number/);
+    } finally {
+      if (saved !== undefined) process.env.NIGHTSHIFT_TOKEN = saved;
+    }
   });
 
   it("serves a runs folder on loopback until stopped", async () => {

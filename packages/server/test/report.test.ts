@@ -1,11 +1,12 @@
-import { spawnSync } from "node:child_process";
-import { existsSync, readFileSync } from "node:fs";
+import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { buildBoard } from "@nightshift/aggregator";
+import { isInputError } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
 import { beforeAll, describe, expect, it } from "vitest";
+import { reportVerb } from "../../cli/src/verbs/report.js";
 import { CAUTIONS, escapeHtml, renderReport } from "../src/report/report-html.js";
-import { CLI, type RunFixture, runShortSearch } from "./run-fixture.js";
+import { type RunFixture, runShortSearch } from "./run-fixture.js";
 
 let fixture: RunFixture;
 let html: string;
@@ -71,20 +72,15 @@ describe("the report", () => {
 });
 
 describe("nightshift report", () => {
-  it("writes report.html into the run folder, or where -o says", () => {
-    const r = spawnSync(process.execPath, [CLI, "report", fixture.folder], { encoding: "utf8" });
-    expect(r.status).toBe(0);
-    expect(existsSync(join(fixture.folder, "report.html"))).toBe(true);
+  it("writes report.html into the run folder, or where -o says", async () => {
+    expect(await reportVerb.run([fixture.folder])).toBe(0);
+    expect(readFileSync(join(fixture.folder, "report.html"), "utf8")).toContain("<svg");
     const out = join(fixture.runsDir, "shared.html");
-    const o = spawnSync(process.execPath, [CLI, "report", fixture.folder, "-o", out], { encoding: "utf8" });
-    expect(o.status).toBe(0);
-    expect(o.stderr).toContain(`wrote ${out}`);
+    expect(await reportVerb.run([fixture.folder, "-o", out])).toBe(0);
     expect(readFileSync(out, "utf8")).toContain("Before you use this model");
   });
 
-  it("refuses a folder that holds no run with exit code 2", () => {
-    const r = spawnSync(process.execPath, [CLI, "report", fixture.runsDir], { encoding: "utf8" });
-    expect(r.status).toBe(2);
-    expect(r.stderr).toMatch(/not a run folder/);
+  it("refuses a folder that holds no run, as a mistake of the user", async () => {
+    await expect(reportVerb.run([fixture.runsDir])).rejects.toSatisfy((error: unknown) => isInputError(error) && /not a run folder/.test((error as Error).message));
   });
 });

@@ -2,7 +2,7 @@ import { type Board, type BoardRow, buildBoard } from "@nightshift/aggregator";
 import { RunStore } from "@nightshift/store";
 import type { TopLevelSpec } from "vega-lite";
 import { emptyActivity, foldEvents, type RunActivity } from "../run-activity.js";
-import { ensemblesOf, isStartedRun, runDetail, trialDetail } from "../run-views.js";
+import { ensemblesOf, isStartedRun, readRunTables, runDetail, trialDetail } from "../run-views.js";
 import type { EnsemblesResponse, RunDetail, TrialDetail } from "../schemas.js";
 import {
   actualPredictedSpec,
@@ -204,11 +204,12 @@ export async function renderReport(runDir: string, options: ReportOptions = {}):
     const now = options.now ?? new Date();
     const activity = readActivity(store);
     const board = buildBoard(store);
-    const detail = runDetail(board.run, store, activity, now.getTime());
-    const ensembles = ensemblesOf(store);
+    const tables = readRunTables(store);
+    const detail = runDetail(board.run, tables, activity, now.getTime());
+    const ensembles = ensemblesOf(tables);
     const top = options.top ?? 25;
     const best = board.rows.find((r) => r.status === "done" && r.mean !== null);
-    const bestDetail = best ? trialDetail(store, best.trial, { curves: true, threshold: 0.5, bins: 10, strategy: "uniform", points: 300 }, board) : null;
+    const bestDetail = best ? trialDetail(store, best.trial, { curves: true, threshold: 0.5, bins: 10, strategy: "uniform", points: 300 }, board, tables.results) : null;
 
     const sections: string[] = [];
     sections.push(`<section><h2>In short</h2>${headline(detail, board, ensembles)}${planFacts(detail)}</section>`);
