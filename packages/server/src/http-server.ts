@@ -130,7 +130,8 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
       .send(JSON.stringify(ErrorResponseSchema.parse({ error: "not_found", message: `no route ${request.method} ${request.url.split("?")[0]}` }))),
   );
 
-  app.addHook("onClose", async () => watches.close());
+  // Event streams never end by themselves: end them before the server waits for its connections.
+  app.addHook("preClose", async () => watches.close());
 
   /** The folder of a started run, or the 400/404 that says why not. */
   const folderOf = (id: string): string => {
@@ -163,8 +164,9 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
     for (const id of catalog.ids()) {
       try {
         runs.push(withRun(id, (store, folder, activity) => runSummary(id, tablesOf(store, folder), activity, clock())));
-      } catch {
+      } catch (error) {
         // A folder whose run has not started, or whose store is being created, is not listed yet.
+        if (!(error instanceof HttpError) && (error as Error).name !== "SqliteError") throw error;
       }
     }
     return sendJson(reply, RunListSchema, { runs });

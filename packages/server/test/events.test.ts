@@ -160,6 +160,19 @@ describe("GET /api/runs/:id/events", () => {
   });
 });
 
+describe("stopping the server", () => {
+  it("ends the open event streams instead of waiting for them forever", async () => {
+    const runsDir = tempDir("closing");
+    startedStore(runsDir, "closing-run");
+    const { app, url } = await startServer({ runsDir, host: "127.0.0.1", port: 0 });
+    const stream = await EventStream.open(`${url}api/runs/closing-run/events`);
+    await stream.until(2);
+    const ended = new Promise<void>((done) => stream.response.on("end", done));
+    await app.close();
+    await ended;
+  });
+});
+
 /** Enough of a ServerResponse for a watch: it records writes and never drains. */
 class StalledResponse extends EventEmitter {
   written = 0;
