@@ -4,9 +4,10 @@
 //
 //   node scripts/screenshot-dashboard.mjs [--runs DIR] [--out test-output/screenshots]
 //
-// Without --runs it runs a short search on the small turbine set (invented demo data) first.
-import { spawnSync } from "node:child_process";
-import { mkdirSync, mkdtempSync, writeFileSync } from "node:fs";
+// Without --runs it runs a short search on the small turbine set (invented demo data) first, and
+// then watches a second, longer one update live.
+import { spawn, spawnSync } from "node:child_process";
+import { mkdirSync, mkdtempSync, readFileSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 import { parseArgs } from "node:util";
@@ -40,12 +41,14 @@ families:
   boosted: { rounds: { int: [10, 40] }, learning_rate: { log_uniform: [0.05, 0.3] }, leaves: 8, min_leaf: 5 }
 `,
   );
-  const run = spawnSync(process.execPath, [join(root, "packages/cli/bin/nightshift.js"), "run", "shots.plan.yaml", "--run-dir", "runs/turbine-shots", "--quiet"], { cwd: dir, stdio: "inherit" });
+  const run = spawnSync(process.execPath, [CLI, "run", "shots.plan.yaml", "--run-dir", "runs/turbine-shots", "--quiet"], { cwd: dir, stdio: "inherit" });
   if (run.status !== 0) process.exit(1);
-  return join(dir, "runs");
+  return dir;
 }
 
-const runsDir = values.runs ? resolve(values.runs) : smallRun();
+const CLI = join(root, "packages/cli/bin/nightshift.js");
+const workDir = values.runs ? null : smallRun();
+const runsDir = values.runs ? resolve(values.runs) : join(workDir, "runs");
 const { renderReport, startServer } = await import(join(root, "packages/server/dist/index.js"));
 const { chromium } = await import("playwright-core");
 const { app, url } = await startServer({ runsDir, host: "127.0.0.1", port: 0 });
@@ -94,6 +97,33 @@ try {
   await page.screenshot({ path: join(out, "trial.png"), fullPage: true });
   check(offHost.length === 0, `no request leaves the server (${offHost.length} did${offHost.length ? `: ${offHost.slice(0, 3).join(", ")}` : ""})`);
 
+
+  if (workDir) {
+    // A run that is still going: its page must follow it through server-sent events, without reloading.
+    writeFileSync(join(workDir, "live.plan.yaml"), readFileSync(join(workDir, "shots.plan.yaml"), "utf8").replace("name: turbine-shots", "name: turbine-live").replace("trials: 18", "trials: 400"));
+    const live = spawn(process.execPath, [CLI, "run", "live.plan.yaml", "--run-dir", "runs/turbine-live", "--quiet", "--workers", "1"], { cwd: workDir, stdio: "ignore" });
+    try {
+      for (let i = 0; i < 200; i++) {
+        const r = await fetch(`${url}api/runs/turbine-live`);
+        if (r.ok && (await r.json()).progress.folds_done > 0) break;
+        await new Promise((wake) => setTimeout(wake, 100));
+      }
+      await page.goto(`${url}#/runs/turbine-live`);
+      await page.waitForSelector("table.board tbody tr");
+      const doneCells = () => page.locator("table.board .status-done").count();
+      const before = await doneCells();
+      await page.waitForFunction((n) => document.querySelectorAll("table.board .status-done").length > n, before, { timeout: 60_000 });
+      check((await doneCells()) > before, `a running run's page updates by itself (${before} → ${await doneCells()} finished trials on the first page)`);
+      check(await page.locator("#live.on").count() === 1, "the page shows it is following the run live");
+      await page.screenshot({ path: join(out, "live.png"), fullPage: true });
+    } finally {
+      if (live.exitCode === null && live.signalCode === null) {
+        const exited = new Promise((done) => live.on("exit", done));
+        live.kill("SIGINT");
+        await exited;
+      }
+    }
+  }
 
   const reportFile = join(out, "report.html");
   writeFileSync(reportFile, await renderReport(join(runsDir, runId)));

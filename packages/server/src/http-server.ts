@@ -70,6 +70,18 @@ function sendAsset(reply: FastifyReply, asset: Asset | null, what: string, cache
   return reply.type(asset.type).header("cache-control", cache).send(asset.body);
 }
 
+/** The answer to a request that failed: the user's mistakes as 4xx with their message, anything else as a bare 500. */
+function errorResponse(error: unknown): { status: number; body: ErrorResponse } {
+  if (error instanceof HttpError) return { status: error.status, body: { error: error.kind, message: error.message } };
+  // Fastify's own refusals (a body over the limit, a malformed header) carry their status.
+  const code = (error as { statusCode?: unknown }).statusCode;
+  if (code === 413) return { status: 413, body: { error: "too_large", message: `request bodies are limited to ${MAX_BODY_BYTES} bytes` } };
+  if (typeof code === "number" && code >= 400 && code < 500) return { status: code, body: { error: "bad_request", message: (error as Error).message } };
+  // Values the maths refuses (a class index the run does not have) come from the query.
+  if (error instanceof RangeError) return { status: 400, body: { error: "bad_request", message: error.message } };
+  return { status: 500, body: { error: "internal", message: "internal error; see the server's log" } };
+}
+
 /**
  * The HTTP face of a folder of runs (DESIGN.md, HTTP): the JSON API, a server-sent events
  * stream per run, and the dashboard. It only reads run stores (read-only connections), so it
@@ -98,28 +110,8 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
   });
 
   app.setErrorHandler((error, _request, reply) => {
-    let body: ErrorResponse;
-    let status: number;
-    if (error instanceof HttpError) {
-      body = { error: error.kind, message: error.message };
-      status = error.status;
-    } else if (error instanceof RangeError) {
-      body = { error: "bad_request", message: error.message };
-      status = 400;
-    } else {
-      const code = (error as { statusCode?: number }).statusCode;
-      if (code === 413) {
-        body = { error: "too_large", message: `request bodies are limited to ${MAX_BODY_BYTES} bytes` };
-        status = 413;
-      } else if (code !== undefined && code >= 400 && code < 500) {
-        body = { error: "bad_request", message: (error as Error).message };
-        status = code;
-      } else {
-        body = { error: "internal", message: "internal error; see the server's log" };
-        status = 500;
-        console.error(error);
-      }
-    }
+    const { status, body } = errorResponse(error);
+    if (status === 500) console.error(error);
     return reply.status(status).type("application/json; charset=utf-8").send(JSON.stringify(ErrorResponseSchema.parse(body)));
   });
 

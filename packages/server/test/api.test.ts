@@ -306,6 +306,8 @@ describe("limits and read-only", () => {
     expectError(await get(`${runPath}/board?family=${"a".repeat(3000)}`), 414, "too_large");
     const post = await app.inject({ method: "POST", url: "/api/runs", payload: { a: 1 } });
     expect(post.statusCode).toBe(404);
+    const large = await app.inject({ method: "POST", url: "/api/runs", payload: "x".repeat(5000), headers: { "content-type": "text/plain" } });
+    expectError({ status: large.statusCode, json: () => JSON.parse(large.body) }, 413, "too_large", /1024 bytes/);
     const del = await app.inject({ method: "DELETE", url: runPath });
     expect(del.statusCode).toBe(404);
     expectError(await get("/api/nothing"), 404, "not_found", /no route GET \/api\/nothing/);

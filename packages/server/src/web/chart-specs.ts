@@ -51,6 +51,10 @@ export function bestSoFarSpec(timeline: readonly TimelinePoint[], metric: string
       if (best === null || (direction === "max" ? score > best : score < best)) best = score;
       return { at: p.at, trial: p.trial, family: p.family, score, best };
     });
+  const times = values.map((v) => Date.parse(v.at)).filter(Number.isFinite);
+  const span = times.length > 1 ? Math.max(...times) - Math.min(...times) : 0;
+  // Clock time to the minute over a night, to the second over a short run.
+  const format = span > 20 * 60_000 ? "%H:%M" : "%H:%M:%S";
   return {
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     config: CONFIG,
@@ -61,7 +65,7 @@ export function bestSoFarSpec(timeline: readonly TimelinePoint[], metric: string
       {
         mark: { type: "point", filled: true, size: 28, opacity: 0.55 },
         encoding: {
-          x: { field: "at", type: "temporal", title: "finished at" },
+          x: { field: "at", type: "temporal", title: "finished at", axis: { format, labelOverlap: true, tickCount: 6 } },
           y: { field: "score", type: "quantitative", title: metric, scale: { zero: false } },
           color: { field: "family", type: "nominal", title: "family", scale: familyScale(values.map((v) => v.family)) },
           tooltip: [

@@ -94,12 +94,26 @@ export async function drawChart(element: HTMLElement, spec: unknown): Promise<vo
   charts.set(element, result);
 }
 
-/** Runs `task` at most once per `ms`, after the last call. */
+/** Runs `task` `ms` after the last of a burst of calls (a slider being dragged). */
 export function debounce(task: () => void, ms: number): () => void {
   let timer: ReturnType<typeof setTimeout> | null = null;
   return () => {
     if (timer !== null) clearTimeout(timer);
     timer = setTimeout(() => {
+      timer = null;
+      task();
+    }, ms);
+  };
+}
+
+/**
+ * Runs `task` once `ms` after the first of a burst of calls, however long the burst lasts (a busy
+ * run sends events without pause; a debounce would wait for it to end).
+ */
+export function throttle(task: () => void, ms: number): () => void {
+  let timer: ReturnType<typeof setTimeout> | null = null;
+  return () => {
+    timer ??= setTimeout(() => {
       timer = null;
       task();
     }, ms);

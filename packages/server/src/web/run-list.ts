@@ -1,5 +1,5 @@
 import type { RunList, RunSummary } from "../schemas.js";
-import { debounce, duration, getJson, h, panel, progressBar, score, stateBadge, when } from "./dom.js";
+import { duration, getJson, h, panel, progressBar, score, stateBadge, when, throttle } from "./dom.js";
 import { followRun } from "./live.js";
 
 function progressCell(run: RunSummary): HTMLElement {
@@ -50,7 +50,7 @@ export async function showRunList(root: HTMLElement, setLive: (connected: boolea
     }
     for (const run of running) if (!stops.has(run.id)) stops.set(run.id, followRun(run.id, run.last_event_id, refresh, setLive));
   };
-  const refresh = debounce(() => void render(), 1000);
+  const refresh = throttle(() => void render(), 1000);
   await render();
   return () => {
     for (const stop of stops.values()) stop();

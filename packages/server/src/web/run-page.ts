@@ -1,7 +1,7 @@
 import type { BoardRow } from "@nightshift/aggregator";
 import type { BoardPage, BoardSortKey, EnsemblesResponse, RunDetail } from "../schemas.js";
 import { bestSoFarSpec, paramsSpec, searchedParams, selectionCurveSpec, weightsSpec } from "./chart-specs.js";
-import { debounce, drawChart, duration, getJson, h, panelSpanning, paramsText, progressBar, score, seconds, stateBadge, when } from "./dom.js";
+import { drawChart, duration, getJson, h, panelSpanning, paramsText, progressBar, score, seconds, stateBadge, when, throttle } from "./dom.js";
 import { followRun } from "./live.js";
 
 const PAGE_SIZE = 50;
@@ -211,11 +211,38 @@ export async function showRunPage(root: HTMLElement, runId: string, setLive: (co
     head.replaceChildren(summaryHead(detail));
     if (detail.timeline.some((p) => p.score !== null)) await drawChart(timelineChart, bestSoFarSpec(detail.timeline, detail.metric, detail.direction, { width: "container", height: 220 }));
     else timelineChart.replaceChildren(h("p", { class: "empty" }, "No trial has finished yet."));
-    await Promise.all([renderBoard(), renderParams(), renderEnsembles()]);
+    await Promise.all([renderBoard(), renderEnsembles()]);
   };
 
   await renderAll();
-  const refresh = debounce(() => void renderAll(), 1500);
-  const stop = followRun(runId, detail ? (detail as RunDetail).last_event_id : 0, refresh, setLive);
+  await renderParams();
+  // One refresh at a time; events that arrive meanwhile ask for one more after it.
+  let rendering = false;
+  let again = false;
+  const refreshNow = async (): Promise<void> => {
+    if (rendering) {
+      again = true;
+      return;
+    }
+    rendering = true;
+    try {
+      await renderAll();
+    } catch {
+      // The next event (or the stream's reconnection) tries again.
+    } finally {
+      rendering = false;
+      if (again) {
+        again = false;
+        refresh();
+      }
+    }
+  };
+  const refresh = throttle(() => void refreshNow(), 1500);
+  // The hyperparameter charts read every trial of a family: they follow a live run more slowly.
+  const refreshParams = throttle(() => void renderParams().catch(() => undefined), 15_000);
+  const stop = followRun(runId, detail ? (detail as RunDetail).last_event_id : 0, (kind) => {
+    refresh();
+    if (kind === "trial_done" || kind === "run_finished") refreshParams();
+  }, setLive);
   return stop;
 }
