@@ -1,5 +1,5 @@
 import { buildBoard } from "@nightshift/aggregator";
-import type { RunStore } from "@nightshift/store";
+import { RunStore } from "@nightshift/store";
 import Fastify, { type FastifyInstance, type FastifyReply } from "fastify";
 import { type ZodType, z } from "zod";
 import { presentedToken, TOKEN_COOKIE, tokenMatches } from "./access.js";
@@ -8,7 +8,7 @@ import { type Asset, DashboardAssets } from "./dashboard-assets.js";
 import { HttpError } from "./http-errors.js";
 import { RunCatalog, RUN_ID_PATTERN } from "./run-catalog.js";
 import { RunCache } from "./run-cache.js";
-import { ensemblesOf, isStartedRun, readRunTables, runDetail, runSummary, trialDetail } from "./run-views.js";
+import { ensemblesOf, isStartedRun, readEventTail, readRunTables, runDetail, runSummary, summaryParts, trialDetail } from "./run-views.js";
 import type { RunActivity } from "./run-activity.js";
 import { RunWatches, type WatchOptions } from "./run-watch.js";
 import {
@@ -91,7 +91,9 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
   const catalog = new RunCatalog(options.runsDir);
   const watches = new RunWatches(options.watch);
   const assets = new DashboardAssets();
-  const cache = new RunCache();
+  // Boards and tables of the few runs being looked at; summaries (small) of many.
+  const cache = new RunCache(8);
+  const summaries = new RunCache(512);
   const clock = options.clock ?? Date.now;
   const app = Fastify({ logger: false, bodyLimit: MAX_BODY_BYTES, routerOptions: { maxParamLength: 200 }, return503OnClosing: true });
 
@@ -150,15 +152,31 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
   const boardOf = (store: RunStore, folder: string) => cache.get(folder, "board", () => buildBoard(store));
   const tablesOf = (store: RunStore, folder: string) => cache.get(folder, "tables", () => readRunTables(store));
 
+  /**
+   * The summary of every run. A run that is not running is summed up once per change of its
+   * store, from a connection opened only then; a running one is followed by its watch for its pace.
+   */
   app.get("/api/runs", async (request, reply) => {
     parseQuery(EmptyQuerySchema, request.query);
     const runs: RunSummary[] = [];
     for (const id of catalog.ids()) {
+      const folder = catalog.folderOf(id);
+      if (folder === null) continue;
       try {
-        runs.push(withRun(id, (store, folder, activity) => runSummary(id, tablesOf(store, folder), activity, clock())));
+        const parts = summaries.get(folder, "summary", () => {
+          const store = RunStore.open(folder, { readonly: true });
+          try {
+            return isStartedRun(store) ? { ...summaryParts(readRunTables(store)), tail: readEventTail(store) } : null;
+          } finally {
+            store.close();
+          }
+        });
+        if (parts === null) continue;
+        const activity = parts.head.state === "running" ? watches.watch(folder).activity : parts.tail;
+        runs.push(runSummary(id, parts, activity, clock()));
       } catch (error) {
-        // A folder whose run has not started, or whose store is being created, is not listed yet.
-        if (!(error instanceof HttpError) && (error as Error).name !== "SqliteError") throw error;
+        // A store being created is not listed yet.
+        if ((error as Error).name !== "SqliteError") throw error;
       }
     }
     return sendJson(reply, RunListSchema, { runs });

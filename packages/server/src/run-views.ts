@@ -1,12 +1,12 @@
 import { type Board, buildBoard, EnsembleSummarySchema, type RunFacts, runFacts } from "@nightshift/aggregator";
 import { type Task, TaskSchema } from "@nightshift/core";
 import type { RunStore, TrialRecord } from "@nightshift/store";
-import type { RunActivity } from "./run-activity.js";
-import { runProgress } from "./run-progress.js";
+import { emptyActivity, foldEvents, type RunActivity } from "./run-activity.js";
+import { type RunCounts, runCounts, runPace } from "./run-progress.js";
 import { pooledPredictions, runTargets } from "./run-targets.js";
 import {
   type EnsemblesResponse,
-  HoldoutSchema,
+  OpenedHoldoutSchema,
   type RunDetail,
   type RunSummary,
   type TrialDetail,
@@ -31,12 +31,25 @@ function planOf(store: RunStore): Record<string, unknown> {
   return plan !== null && typeof plan === "object" && !Array.isArray(plan) ? (plan as Record<string, unknown>) : {};
 }
 
-/** What the run views need from a store, read in one go (and cached by the server while the store is unchanged). */
-export interface RunTables {
+/** The small facts of a run: what it measures, its state, when it started. */
+export interface RunHead {
   readonly facts: RunFacts;
   readonly task: Task;
   readonly state: string;
   readonly createdAt: string | null;
+}
+
+export function readRunHead(store: RunStore): RunHead {
+  return {
+    facts: runFacts(store),
+    task: TaskSchema.parse(store.getMeta("task")),
+    state: store.getMeta("state") ?? "created",
+    createdAt: store.getMeta("created_at") ?? null,
+  };
+}
+
+/** What the run views need from a store, read in one go (and cached by the server while the store is unchanged). */
+export interface RunTables extends RunHead {
   readonly plan: Record<string, unknown>;
   readonly trials: TrialRecord[];
   readonly results: ReturnType<RunStore["foldScores"]>;
@@ -48,46 +61,61 @@ export interface RunTables {
 export function readRunTables(store: RunStore): RunTables {
   const holdout = store.artifact("holdout");
   return {
-    facts: runFacts(store),
-    task: TaskSchema.parse(store.getMeta("task")),
-    state: store.getMeta("state") ?? "created",
-    createdAt: store.getMeta("created_at") ?? null,
+    ...readRunHead(store),
     plan: planOf(store),
     trials: store.trials(),
     results: store.foldScores(),
     halvingDecisions: store.halvingDecisions().length,
     ensembles: store.artifacts("ensemble").map((a) => ({ name: a.name, created_at: a.createdAt, ...EnsembleSummarySchema.parse(a.data) })),
-    holdout: holdout ? HoldoutSchema.parse(holdout.data) : null,
+    holdout: holdout ? OpenedHoldoutSchema.parse(holdout.data) : null,
   };
 }
 
-export function runSummary(id: string, tables: RunTables, activity: RunActivity, now: number): RunSummary {
-  const { facts, plan, state } = tables;
+/** A run's head and counts: all a summary needs besides its pace, small enough to keep for many runs. */
+export interface RunSummaryParts {
+  readonly head: RunHead;
+  readonly counts: RunCounts;
+}
+
+export function summaryParts(tables: RunTables): RunSummaryParts {
+  const { facts, plan } = tables;
+  const counts = runCounts({ trials: tables.trials, results: tables.results, foldCount: facts.foldCount, halving: plan.halving !== undefined && plan.halving !== null, direction: facts.direction });
+  return { head: { facts, task: tables.task, state: tables.state, createdAt: tables.createdAt }, counts };
+}
+
+export function runSummary(id: string, parts: RunSummaryParts, activity: Pick<RunActivity, "lastId" | "lastEventAt" | "lastStartAt" | "foldsSinceStart">, now: number): RunSummary {
+  const { head, counts } = parts;
   return {
     id,
-    metric: facts.metric,
-    direction: facts.direction,
-    task: tables.task,
-    state,
-    created_at: tables.createdAt,
+    metric: head.facts.metric,
+    direction: head.facts.direction,
+    task: head.task,
+    state: head.state,
+    created_at: head.createdAt,
     last_event_at: activity.lastEventAt,
     last_event_id: activity.lastId,
-    ...runProgress({
-      trials: tables.trials,
-      results: tables.results,
-      foldCount: facts.foldCount,
-      halving: plan.halving !== undefined && plan.halving !== null,
-      direction: facts.direction,
-      state,
-      activity,
-      now,
-    }),
+    trials: counts.trials,
+    progress: runPace(counts, head.state, activity, now),
+    best: counts.best,
   };
+}
+
+/** The last event of a run and its pace since it last started, read through its whole log once (no timeline kept). */
+export function readEventTail(store: RunStore): Omit<RunActivity, "timeline"> {
+  const activity = emptyActivity();
+  for (;;) {
+    const events = store.events(activity.lastId, 1000);
+    if (events.length === 0) break;
+    foldEvents(activity, events);
+    activity.timeline.length = 0;
+  }
+  const { timeline: _timeline, ...tail } = activity;
+  return tail;
 }
 
 export function runDetail(id: string, tables: RunTables, activity: RunActivity, now: number): RunDetail {
   return {
-    ...runSummary(id, tables, activity, now),
+    ...runSummary(id, summaryParts(tables), activity, now),
     fold_count: tables.facts.foldCount,
     plan: tables.plan,
     families: [...new Set(tables.trials.map((t) => t.family))].sort(),

@@ -68,7 +68,8 @@ export const TimelinePointSchema = z.object({
 });
 export type TimelinePoint = z.infer<typeof TimelinePointSchema>;
 
-export const HoldoutSchema = BoardSchema.shape.holdout;
+/** The hold-out opening as the board carries it (null while sealed). */
+export const OpenedHoldoutSchema = BoardSchema.shape.holdout;
 
 export const RunDetailSchema = RunSummarySchema.extend({
   fold_count: count,
@@ -78,7 +79,7 @@ export const RunDetailSchema = RunSummarySchema.extend({
   timeline: z.array(TimelinePointSchema),
   halving_decisions: count,
   ensembles: count,
-  holdout: HoldoutSchema,
+  holdout: OpenedHoldoutSchema,
 });
 export type RunDetail = z.infer<typeof RunDetailSchema>;
 
@@ -217,7 +218,7 @@ export const EnsemblesResponseSchema = z.object({
   metric: z.string(),
   direction: z.enum(["max", "min"]),
   ensembles: z.array(StoredEnsembleSchema),
-  holdout: HoldoutSchema,
+  holdout: OpenedHoldoutSchema,
 });
 export type EnsemblesResponse = z.infer<typeof EnsemblesResponseSchema>;
 

@@ -5,7 +5,8 @@ import { join, resolve } from "node:path";
 import { RunStore } from "@nightshift/store";
 import type { FastifyInstance } from "fastify";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { startServer } from "../src/http-server.js";
+import { createServer, startServer } from "../src/http-server.js";
+import { RunListSchema } from "../src/schemas.js";
 import { RunWatch } from "../src/run-watch.js";
 import { tempDir } from "./run-fixture.js";
 
@@ -157,6 +158,27 @@ describe("GET /api/runs/:id/events", () => {
       if (status === 503) await new Promise((wake) => setTimeout(wake, 20));
     }
     expect(status).toBe(200);
+  });
+});
+
+describe("a running run in the run list", () => {
+  it("has a pace and an ETA from the fold jobs committed since it started", async () => {
+    const runsDir = tempDir("pace");
+    const folder = startedStore(runsDir, "paced-run");
+    const store = RunStore.open(folder, { readonly: true });
+    const startedAt = Date.parse(store.events(0, 1)[0].at);
+    store.close();
+    const app = await createServer({ runsDir, clock: () => startedAt + 30_000 });
+    try {
+      const list = RunListSchema.parse(JSON.parse((await app.inject({ method: "GET", url: "/api/runs" })).body));
+      // One fold job in the 30 s since the start; the one queued trial needs 3 folds, none stored yet.
+      expect(list.runs[0]).toMatchObject({ id: "paced-run", state: "running", last_event_id: 2 });
+      expect(list.runs[0].progress).toMatchObject({ folds_done: 0, folds_planned: 3, running_s: 30 });
+      expect(list.runs[0].progress.folds_per_s).toBeCloseTo(1 / 30, 12);
+      expect(list.runs[0].progress.eta_s).toBeCloseTo(90, 9);
+    } finally {
+      await app.close();
+    }
   });
 });
 

@@ -126,11 +126,12 @@ function headline(detail: RunDetail, board: Board, ensembles: EnsemblesResponse)
         : "No other trial is statistically tied with it.",
     );
   } else lines.push("No trial has finished yet.");
+  // Ranked by the nested estimate: the plain score was fitted on the same rows it is measured on.
   const sign = board.direction === "max" ? -1 : 1;
-  const bestEnsemble = [...ensembles.ensembles].filter((e) => e.mean !== null).sort((a, b) => sign * ((a.mean as number) - (b.mean as number)))[0];
+  const bestEnsemble = [...ensembles.ensembles].filter((e) => e.nested.mean !== null).sort((a, b) => sign * ((a.nested.mean as number) - (b.nested.mean as number)))[0];
   if (bestEnsemble) {
     lines.push(
-      `Best ensemble: <strong>${escapeHtml(bestEnsemble.kind)}</strong> of ${bestEnsemble.members.length} trials, ${score(bestEnsemble.mean)} (nested estimate ${score(bestEnsemble.nested.mean)} ± ${score(bestEnsemble.nested.std)}).`,
+      `Best ensemble: <strong>${escapeHtml(bestEnsemble.kind)}</strong> of ${bestEnsemble.members.length} trials, nested estimate ${score(bestEnsemble.nested.mean)} ± ${score(bestEnsemble.nested.std)} (${score(bestEnsemble.mean)} on the rows it was fitted on).`,
     );
   }
   lines.push(

@@ -155,7 +155,7 @@ export function paramsSpec(rows: readonly BoardRow[], family: string, metric: st
 
 /** The score of greedy ensemble selection after each round, one line per ensemble, with the best single trial for reference. */
 export function selectionCurveSpec(ensembles: readonly Pick<EnsembleSummary, "kind" | "curve">[], bestSingle: number | null, metric: string, size: ChartSize = DEFAULT_SIZE): TopLevelSpec {
-  const values = ensembles.flatMap((e) => e.curve.map((score, i) => ({ round: i + 1, score, ensemble: e.kind })));
+  const values = ensembles.flatMap((e) => e.curve.map((score, i) => ({ round: i + 1, score, ensemble: e.kind })).filter((v) => v.score !== null));
   const layers: NonNullable<Extract<TopLevelSpec, { layer: unknown }>["layer"]> = [
     {
       data: { values },

@@ -1,5 +1,19 @@
 /** Kinds of stored events that change what a page shows. */
-export const CHANGING_KINDS = ["fold_done", "trial_done", "trial_failed", "new_best", "halving", "run_started", "run_resumed", "run_finished", "run_stopped"];
+export const CHANGING_KINDS = [
+  "fold_done",
+  "trial_done",
+  "trial_failed",
+  "new_best",
+  "halving",
+  "run_started",
+  "run_resumed",
+  "run_finished",
+  "run_stopped",
+  // The final step: ensembles stored, the hold-out opened.
+  "ensembles_built",
+  "holdout_opened",
+  "final_step",
+];
 
 /**
  * Follows a run's server-sent events from `after` and calls `onChange` for each; reports
