@@ -133,7 +133,13 @@ export function paramsSpec(rows: readonly BoardRow[], family: string, metric: st
       mark: { type: "point" as const, size: 36, color },
       encoding: {
         x: numeric
-          ? { field: "value", type: "quantitative" as const, title: name, scale: logScale ? { type: "log" as const } : { zero: false } }
+          ? {
+              field: "value",
+              type: "quantitative" as const,
+              title: name,
+              scale: logScale ? { type: "log" as const } : { zero: false },
+              axis: numbers.every(Number.isInteger) ? { tickMinStep: 1, format: "d" } : {},
+            }
           : { field: "value", type: "nominal" as const, title: name, axis: { labelAngle: 0 } },
         y: { field: "score", type: "quantitative" as const, title: metric, scale: { zero: false } },
         fill: { field: "tie", type: "nominal" as const, title: null, scale: { domain: ["tied with the best", "behind the best"], range: [color, "transparent"] } },
