@@ -164,7 +164,8 @@ export async function showRunPage(root: HTMLElement, runId: string, setLive: (co
       paramsChart.replaceChildren(h("p", { class: "empty" }, scored.length === 0 ? "No scored trial of this family yet." : "This family has no searched hyperparameter (every trial used the same values)."));
       return;
     }
-    await drawChart(paramsChart, paramsSpec(rows.rows, family, rows.metric));
+    await drawChart(paramsChart, paramsSpec(rows.rows, family, rows.metric), scored.length * searchedParams(scored).length);
+    paramsChart.dataset.family = family;
   };
 
   const renderEnsembles = async (): Promise<void> => {
@@ -209,7 +210,7 @@ export async function showRunPage(root: HTMLElement, runId: string, setLive: (co
   const renderAll = async (): Promise<void> => {
     detail = await getJson<RunDetail>(runApi(runId));
     head.replaceChildren(summaryHead(detail));
-    if (detail.timeline.some((p) => p.score !== null)) await drawChart(timelineChart, bestSoFarSpec(detail.timeline, detail.metric, detail.direction, { width: "container", height: 220 }));
+    if (detail.timeline.some((p) => p.score !== null)) await drawChart(timelineChart, bestSoFarSpec(detail.timeline, detail.metric, detail.direction, { width: "container", height: 220 }), detail.timeline.length);
     else timelineChart.replaceChildren(h("p", { class: "empty" }, "No trial has finished yet."));
     await Promise.all([renderBoard(), renderEnsembles()]);
   };
