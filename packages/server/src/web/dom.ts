@@ -138,6 +138,17 @@ export function progressBar(fraction: number, label: string): HTMLElement {
   return bar;
 }
 
+/** Minutes without a new event after which a "running" run is flagged: its coordinator may have died. */
+export const QUIET_MINUTES = 10;
+
+/** A warning when a run says it is running but has written nothing for a while, or null. */
+export function quietWarning(state: string, lastEventAt: string | null): HTMLElement | null {
+  if (state !== "running" || lastEventAt === null) return null;
+  const quietSeconds = (Date.now() - Date.parse(lastEventAt)) / 1000;
+  if (!(quietSeconds > QUIET_MINUTES * 60)) return null;
+  return h("span", { class: "quiet", title: "A fold job may simply be long; if the coordinator was stopped, run the plan again to resume." }, `nothing new for ${duration(quietSeconds)}`);
+}
+
 export function stateBadge(state: string): HTMLElement {
   return h("span", { class: `badge badge-${state}` }, state.replace("_", " "));
 }

@@ -1,11 +1,17 @@
 import type { RunList, RunSummary } from "../schemas.js";
-import { duration, getJson, h, panel, progressBar, score, stateBadge, when, throttle } from "./dom.js";
+import { duration, getJson, h, panel, progressBar, quietWarning, score, stateBadge, throttle, when } from "./dom.js";
 import { followRun } from "./live.js";
 
 function progressCell(run: RunSummary): HTMLElement {
   const p = run.progress;
   const label = `${p.folds_done} / ${p.folds_planned} folds`;
-  return h("div", { class: "progress-cell" }, progressBar(p.fraction, label), run.state === "running" ? h("span", { class: "eta" }, p.eta_s === null ? "ETA –" : `ETA ${duration(p.eta_s)}`) : null);
+  return h(
+    "div",
+    { class: "progress-cell" },
+    progressBar(p.fraction, label),
+    run.state === "running" ? h("span", { class: "eta" }, p.eta_s === null ? "ETA –" : `ETA ${duration(p.eta_s)}`) : null,
+    quietWarning(run.state, run.last_event_at),
+  );
 }
 
 function runRow(run: RunSummary): HTMLElement {

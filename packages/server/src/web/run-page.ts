@@ -1,7 +1,7 @@
 import type { BoardRow } from "@nightshift/aggregator";
 import type { BoardPage, BoardSortKey, EnsemblesResponse, RunDetail } from "../schemas.js";
 import { bestSoFarSpec, paramsSpec, searchedParams, selectionCurveSpec, weightsSpec } from "./chart-specs.js";
-import { drawChart, duration, getJson, h, panelSpanning, paramsText, progressBar, score, seconds, stateBadge, when, throttle } from "./dom.js";
+import { drawChart, duration, getJson, h, panelSpanning, paramsText, progressBar, quietWarning, score, seconds, stateBadge, throttle, when } from "./dom.js";
 import { followRun } from "./live.js";
 
 const PAGE_SIZE = 50;
@@ -57,7 +57,7 @@ function summaryHead(detail: RunDetail): HTMLElement {
   return h(
     "div",
     { class: "page-head" },
-    h("div", {}, h("h1", {}, detail.id, " ", stateBadge(detail.state)), h("p", { class: "muted" }, `${detail.task} · ${detail.metric} (${detail.direction === "max" ? "higher" : "lower"} is better) · ${detail.fold_count} folds · started ${when(detail.created_at)}`)),
+    h("div", {}, h("h1", {}, detail.id, " ", stateBadge(detail.state), quietWarning(detail.state, detail.last_event_at)), h("p", { class: "muted" }, `${detail.task} · ${detail.metric} (${detail.direction === "max" ? "higher" : "lower"} is better) · ${detail.fold_count} folds · started ${when(detail.created_at)}`)),
     h(
       "div",
       { class: "head-stats" },
