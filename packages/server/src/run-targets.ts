@@ -1,4 +1,4 @@
-import { readFileSync, statSync } from "node:fs";
+import { existsSync, readFileSync, statSync } from "node:fs";
 import { join } from "node:path";
 import { type Task, unpackDataset } from "@nightshift/core";
 import type { RunStore } from "@nightshift/store";
@@ -20,9 +20,11 @@ const cache = new Map<string, { stamp: string; targets: RunTargets }>();
 /**
  * The targets of a run folder's dataset pack. Only the target column is kept (copied out of
  * the pack), and only for the few runs looked at last, so a large pack is not held in memory.
+ * Null when the folder has no pack (a store copied without it).
  */
-export function runTargets(folder: string): RunTargets {
+export function runTargets(folder: string): RunTargets | null {
   const path = join(folder, DATASET_PACK_FILE);
+  if (!existsSync(path)) return null;
   const info = statSync(path);
   const stamp = `${info.size}:${info.mtimeMs}`;
   const hit = cache.get(folder);

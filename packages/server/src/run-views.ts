@@ -133,7 +133,8 @@ export function ensemblesOf(tables: RunTables): EnsemblesResponse {
 
 /**
  * One trial: its board row (rank and tie as on the whole board), per-fold results, halving
- * decisions and, when asked, what its out-of-fold predictions say. Null for an unknown trial.
+ * decisions and, when asked, what its out-of-fold predictions say (null without the run's
+ * dataset pack, which holds their targets). Null for an unknown trial.
  */
 export function trialDetail(
   store: RunStore,
@@ -152,8 +153,9 @@ export function trialDetail(
     .halvingDecisions()
     .filter((d) => d.trial === trial)
     .map((d) => ({ batch: d.batch, rung: d.rung, score: d.score === null ? null : finiteOrNull(d.score), promoted: d.promoted }));
-  const diagnostics = query.curves
-    ? trialDiagnostics(pooledPredictions(store, runTargets(store.folder), trial), {
+  const targets = query.curves ? runTargets(store.folder) : null;
+  const diagnostics = targets
+    ? trialDiagnostics(pooledPredictions(store, targets, trial), {
         threshold: query.threshold,
         bins: query.bins,
         strategy: query.strategy,

@@ -225,6 +225,14 @@ describe("GET /api/runs/:id/trials/:trial", () => {
     expect(none?.matrix[0][1]).toBe(0);
   });
 
+  it("leaves the diagnostics out when the run folder has lost its dataset pack", async () => {
+    const bare = join(fixture.runsDir, "turbines-no-pack");
+    cpSync(fixture.folder, bare, { recursive: true, filter: (source) => !source.endsWith("dataset.pack") });
+    const detail = TrialDetailSchema.parse((await get("/api/runs/turbines-no-pack/trials/2?curves=true")).json());
+    expect(detail.diagnostics).toBeNull();
+    expect(detail.folds.length).toBeGreaterThan(0);
+  });
+
   it("is 404 for an unknown trial or run, 400 for a malformed one or a malformed query", async () => {
     expectError(await get(`${runPath}/trials/999`), 404, "not_found", /no trial 999/);
     expectError(await get("/api/runs/missing/trials/1"), 404, "not_found");
