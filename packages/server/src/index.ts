@@ -1,1 +1,15 @@
-export {};
+export * from "./access.js";
+export * from "./board-page.js";
+export * from "./http-errors.js";
+export * from "./http-server.js";
+export * from "./report/report-html.js";
+export * from "./report/render-svg.js";
+export * from "./run-activity.js";
+export * from "./run-cache.js";
+export * from "./run-catalog.js";
+export * from "./run-progress.js";
+export * from "./run-targets.js";
+export * from "./run-views.js";
+export * from "./run-watch.js";
+export * from "./schemas.js";
+export * from "./trial-diagnostics.js";
