@@ -5,3 +5,4 @@ import { initVerb } from "./verbs/init.js";
 import { runVerb } from "./verbs/run.js";
 
 for (const verb of [demoVerb, initVerb, runVerb, boardVerb]) registerVerb(verb);
+import { predictVerb } from "./verbs/predict.js"; registerVerb(predictVerb);

@@ -5,3 +5,4 @@ export * from "./run-folder.js";
 export * from "./run-search.js";
 export * from "./scheduler.js";
 export * from "./trials.js";
+export * from "./final-step.js";

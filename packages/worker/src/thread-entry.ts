@@ -1,7 +1,7 @@
 import { workerData } from "node:worker_threads";
-import { FoldJobSchema, metricByName, NODE_MAJOR, unpackDataset } from "@nightshift/core";
+import { JobSchema, metricByName, NODE_MAJOR, unpackDataset } from "@nightshift/core";
 import { createFoldContext, type FoldContext } from "./fold-context.js";
-import { type FoldOutcome, runFoldJob } from "./fold-job.js";
+import { type JobOutcome, runJob } from "./run-job.js";
 
 /** What the local pool hands each thread once: the shared dataset pack and the folds. */
 export interface ThreadSetup {
@@ -22,8 +22,8 @@ function setup(): FoldContext {
 }
 
 /** Piscina task: validate the job (workers run data, not code), then run it. */
-export default function foldTask(raw: unknown): FoldOutcome {
-  const job = FoldJobSchema.parse(raw);
+export default function jobTask(raw: unknown): JobOutcome {
+  const job = JobSchema.parse(raw);
   if (job.node !== NODE_MAJOR) throw new Error(`job made by Node.js ${job.node}, this worker runs Node.js ${NODE_MAJOR}: results would not be bit-identical, so it is refused`);
-  return runFoldJob(setup(), job);
+  return runJob(setup(), job);
 }
