@@ -3,7 +3,8 @@ predictions of a few scikit-learn models, for packages/aggregator/test/stacking-
 
 The out-of-fold matrices are made here (cross_val_predict, 5 folds, shuffled with seed 0) and
 stored as float32 values, the precision nightshift stores predictions in; both sides fit on
-exactly those values. Features: logit of P(positive) clipped to [1e-6, 1 - 1e-6] (binary), log of
+exactly those values. The fold of each row is stored too, so the TypeScript side can also build
+the ensembles (selection curve, nested estimates) on the same matrices. Features: logit of P(positive) clipped to [1e-6, 1 - 1e-6] (binary), log of
 each class probability clipped the same way (multiclass), the values (regression). The penalty
 is scikit-learn's default written per row: mean loss + (1 / 2n)·||w||^2, intercepts free.
 
@@ -48,6 +49,13 @@ def read_csv(name):
         rows = list(csv.reader(f))
     header, body = rows[0], np.array(rows[1:], dtype=np.float64)
     return header, body
+
+
+def fold_of_rows(folds, x, y):
+    out = np.zeros(len(y), dtype=int)
+    for f, (_, test) in enumerate(folds.split(x, y)):
+        out[test] = f
+    return out.tolist()
 
 
 def oof(models, x, y, folds, method):
@@ -127,6 +135,7 @@ def breast_cancer():
     nonneg, nonneg_value = tight_minimize(fun, np.zeros(m + 1), bounds=[(0, None)] * m + [(None, None)])
     return {
         "target": y.tolist(),
+        "folds": fold_of_rows(folds, x, y),
         "members": [p.astype(np.float64).tolist() for p in members],
         "free": {"weights": lr.coef_[0].tolist(), "intercepts": lr.intercept_.tolist(), "objective": float(fun(np.concatenate([lr.coef_[0], lr.intercept_]))[0])},
         "non_negative": {"weights": nonneg[:m].tolist(), "intercepts": nonneg[m:].tolist(), "objective": nonneg_value},
@@ -158,6 +167,7 @@ def penguins():
     return {
         "labels": species,
         "target": y.tolist(),
+        "folds": fold_of_rows(folds, x, y),
         "members": [p.astype(np.float64).reshape(-1).tolist() for p in members],
         "free": {"weights": free[:m].tolist(), "intercepts_centred": centre(free[m:]), "objective": free_value},
         "non_negative": {"weights": nonneg[:m].tolist(), "intercepts_centred": centre(nonneg[m:]), "objective": nonneg_value},
@@ -182,6 +192,7 @@ def friedman():
     nonneg, nonneg_value = tight_minimize(fun, np.zeros(m + 1), bounds=[(0, None)] * m + [(None, None)])
     return {
         "target": y.tolist(),
+        "folds": fold_of_rows(folds, x, y),
         "members": [p.astype(np.float64).tolist() for p in members],
         "free": {"weights": ridge.coef_.tolist(), "intercepts": [float(ridge.intercept_)], "objective": float(fun(np.concatenate([ridge.coef_, [ridge.intercept_]]))[0])},
         "non_negative": {"weights": nonneg[:m].tolist(), "intercepts": nonneg[m:].tolist(), "objective": nonneg_value},

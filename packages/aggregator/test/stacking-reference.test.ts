@@ -1,5 +1,9 @@
 import { readFileSync } from "node:fs";
 import { describe, expect, it } from "vitest";
+import { metricByName, type Metric, type Task } from "@nightshift/core";
+import { buildEnsembles } from "../src/ensembles/build-ensembles.js";
+import { scoreStored } from "../src/ensembles/nested-estimate.js";
+import { assembleOutOfFold, predictionRows, rankTrials, targetRows } from "../src/ensembles/out-of-fold-set.js";
 import { fitStacker } from "../src/ensembles/stacking.js";
 
 interface Fit {
@@ -11,6 +15,7 @@ interface Fit {
 interface Case {
   target: number[];
   members: number[][];
+  folds: number[];
   labels?: string[];
   free: Fit;
   non_negative: Fit;
@@ -85,5 +90,43 @@ describe(`stacker coefficients against ${source}`, () => {
     const bounded = fitStacker(members, target, "regression", 1, { nonNegative: true });
     expectClose(bounded.weights, c.non_negative.weights, "non-negative weights");
     expectClose(bounded.intercepts, c.non_negative.intercepts ?? [], "non-negative intercept");
+  });
+});
+
+/** The reference matrices as a run's out-of-fold set, folds as the script drew them. */
+function setOf(c: Case, task: Task, width: number, metric: Metric) {
+  const target = task === "regression" ? Float64Array.from(c.target) : Int32Array.from(c.target);
+  const foldCount = Math.max(...c.folds) + 1;
+  const foldTests = Array.from({ length: foldCount }, (_, f) => Uint32Array.from(c.folds.flatMap((g, i) => (g === f ? [i] : []))));
+  const trials = c.members.map((m, trial) => {
+    const p = Float32Array.from(m);
+    const foldScores = Float64Array.from(foldTests, (rows) => scoreStored(metric, { task, width }, targetRows(target, rows), predictionRows(Float64Array.from(p), width, rows)));
+    return { trial, folds: foldTests.map((rows) => predictionRows(p, width, rows)), foldScores, rankScore: foldScores.reduce((a, b) => a + b, 0) / foldCount };
+  });
+  return assembleOutOfFold({ task, classCount: task === "regression" ? 1 : width === 1 ? 2 : width, width, target, foldTests, trials: rankTrials(trials, metric.direction) });
+}
+
+describe(`ensembles on the same out-of-fold matrices (${source})`, () => {
+  it.each([
+    ["breast cancer", "binary", 1, "average_precision"],
+    ["Palmer penguins", "multiclass", 3, "log_loss"],
+    ["Friedman #1", "regression", 1, "rmse"],
+  ] as const)("%s: the kept selection scores the best point of its curve, and every ensemble reports a nested estimate", (name, task, width, metricName) => {
+    const c = name === "breast cancer" ? reference.breast_cancer : name === "Palmer penguins" ? reference.penguins : reference.friedman1;
+    const metric = metricByName(metricName);
+    const build = buildEnsembles(setOf(c, task, width, metric), metric, { selection: { rounds: 25, candidates: 4, init: 0 }, stacking: { top: 4, non_negative: false }, voting: { top: 4 } }, 1 / 4);
+    const selection = build.ensembles.find((e) => e.spec.kind === "selection");
+    if (!selection) throw new Error("no selection");
+    const curve = selection.summary.curve.map((v) => v ?? Number.NaN);
+    const better = (a: number, b: number): boolean => (metric.direction === "max" ? a > b : a < b);
+    let best = curve[0];
+    for (const v of curve) if (better(v, best)) best = v;
+    // The hillclimb (out-of-fold) score of the kept ensemble is the curve's best point, on the rows it selected on.
+    const pooled = scoreStored(metric, { task, width }, setOf(c, task, width, metric).target, selection.outOfFold);
+    expect(Math.abs(pooled - best)).toBeLessThan(1e-12);
+    for (const e of build.ensembles) {
+      expect(Number.isFinite(e.summary.nested.mean)).toBe(true);
+      expect(e.summary.nested.folds).toHaveLength(5);
+    }
   });
 });
