@@ -1,4 +1,4 @@
-import { createRng, metricByName, type Metric } from "@nightshift/core";
+import { averagePrecision as corePrecision, createRng, metricByName, type Metric, rocAuc as coreAuc } from "@nightshift/core";
 import { describe, expect, it } from "vitest";
 import { combinePredictions, toFullWidth } from "../src/ensembles/combine-predictions.js";
 import { greedySelection } from "../src/ensembles/greedy-selection.js";
@@ -62,7 +62,7 @@ function library(n: number, candidates: number, seed: string): { y: Int32Array; 
 
 /** The same scorer with its bounds hidden: selection then scores every candidate exactly. */
 function exhaustive(scorer: HillclimbScorer): HillclimbScorer {
-  return { metric: scorer.metric, bounded: false, score: (sum, add, divisor) => scorer.score(sum, add, divisor), bounds: () => undefined };
+  return { metric: scorer.metric, bounded: false, sum: scorer.sum, score: (add, divisor) => scorer.score(add, divisor), bounds: () => undefined };
 }
 
 describe("greedy ensemble selection with replacement (Caruana et al. 2004)", () => {
@@ -176,15 +176,45 @@ describe("hillclimb scorers", () => {
     const bounds = new Float64Array(2);
     for (const metric of [averagePrecision, rocAuc, logLoss]) {
       const scorer = createHillclimbScorer(metric, "binary", y, 1);
-      const exact = scorer.score(sum, predictions[3], 4);
+      scorer.sum.set(sum);
+      const exact = scorer.score(predictions[3], 4);
       const registry = scoreOf(metric, y, average);
       expect(Math.abs(exact - registry)).toBeLessThan(1e-12);
       if (scorer.bounded) {
-        scorer.bounds(sum, valueRange(sum), predictions[3], valueRange(predictions[3]), bounds);
+        scorer.bounds(valueRange(sum), predictions[3], valueRange(predictions[3]), bounds);
         expect(bounds[0]).toBeLessThanOrEqual(exact);
         expect(bounds[1]).toBeGreaterThanOrEqual(exact);
         expect(bounds[1] - bounds[0]).toBeLessThan(0.05);
       }
+    }
+  });
+
+  it("AP and ROC AUC through the bins are core's values bit for bit, whatever the spread of the scores", () => {
+    const rng = createRng("greedy-test", "bitwise");
+    const n = 4000;
+    const cases: Array<[string, (i: number) => number, number]> = [
+      ["smooth", () => rng.next(), 0.2],
+      ["ties", () => Math.round(rng.next() * 10) / 10, 0.3],
+      ["one outlier stretches the range (most rows share a bin)", (i) => (i === 7 ? 1e6 : rng.next()), 0.1],
+      ["constant", () => 0.5, 0.4],
+      ["tiny probabilities", () => rng.next() * 1e-7, 0.05],
+      ["no positive", () => rng.next(), 0],
+      ["only positives", () => rng.next(), 1],
+    ];
+    for (const [name, draw, rate] of cases) {
+      const y = Int32Array.from({ length: n }, () => (rng.next() < rate ? 1 : 0));
+      const positive = Uint8Array.from(y);
+      const sum = Float64Array.from({ length: n }, (_, i) => draw(i));
+      const add = Float32Array.from({ length: n }, () => Math.round(rng.next() * 4) / 4);
+      const values = Float64Array.from(sum, (v, i) => v + add[i]);
+      const apScorer = createHillclimbScorer(averagePrecision, "binary", y, 1);
+      apScorer.sum.set(sum);
+      const aucScorer = createHillclimbScorer(rocAuc, "binary", y, 1);
+      aucScorer.sum.set(sum);
+      const ap = apScorer.score(add, 2);
+      const auc = aucScorer.score(add, 2);
+      expect(ap, name).toBe(corePrecision(positive, values));
+      expect(Object.is(auc, coreAuc(positive, values)), name).toBe(true);
     }
   });
 
@@ -200,12 +230,12 @@ describe("hillclimb scorers", () => {
     for (const metric of [averagePrecision, rocAuc]) {
       const scorer = createHillclimbScorer(metric, "binary", y, 1);
       for (const p of [tied, constant]) {
-        const exact = scorer.score(zero, p, 1);
-        scorer.bounds(zero, valueRange(zero), p, valueRange(p), bounds);
+        const exact = scorer.score(p, 1);
+        scorer.bounds(valueRange(zero), p, valueRange(p), bounds);
         expect(bounds[0]).toBeLessThanOrEqual(exact);
         expect(bounds[1]).toBeGreaterThanOrEqual(exact);
       }
-      expect(scorer.score(zero, constant, 1)).toBeCloseTo(metric === averagePrecision ? positives / n : 0.5, 12);
+      expect(scorer.score(constant, 1)).toBeCloseTo(metric === averagePrecision ? positives / n : 0.5, 12);
     }
   });
 });

@@ -63,7 +63,8 @@ export function greedySelection(
   const size = target.length * width;
   for (const p of predictions) if (p.length !== size) throw new RangeError(`candidate predictions hold ${p.length} values, expected ${size}`);
 
-  const sum = new Float64Array(size);
+  const sum = scorer.sum;
+  sum.fill(0);
   const picks = new Int32Array(init + options.rounds);
   const curve = new Float64Array((init > 0 ? 1 : 0) + options.rounds);
   let picked = 0;
@@ -72,7 +73,7 @@ export function greedySelection(
   if (init > 0) {
     // Sorted initialisation: the candidates' own scores on these rows, best first, lowest index among equals.
     const single = new Float64Array(candidates);
-    for (let m = 0; m < candidates; m++) single[m] = scorer.score(sum, predictions[m], 1);
+    for (let m = 0; m < candidates; m++) single[m] = scorer.score(predictions[m], 1);
     evaluations += candidates;
     const order = Array.from({ length: candidates }, (_, m) => m).sort((a, b) => (isBetter(metric, single[a], single[b]) ? -1 : isBetter(metric, single[b], single[a]) ? 1 : a - b));
     for (let k = 0; k < init; k++) {
@@ -80,7 +81,7 @@ export function greedySelection(
       for (let i = 0; i < size; i++) sum[i] += p[i];
       picks[picked++] = order[k];
     }
-    curve[0] = scorer.score(sum, null, picked);
+    curve[0] = scorer.score(null, picked);
     evaluations++;
   }
 
@@ -102,18 +103,18 @@ export function greedySelection(
       const sumRange = valueRange(sum);
       // Optimistic bound in "larger is better" form; an undefined bound must be tried.
       for (let m = 0; m < candidates; m++) {
-        scorer.bounds(sum, sumRange, predictions[m], ranges[m], bounds);
+        scorer.bounds(sumRange, predictions[m], ranges[m], bounds);
         const value = metric.direction === "max" ? bounds[1] : -bounds[0];
         optimistic[m] = Number.isNaN(value) ? Infinity : value;
       }
       order.sort((a, b) => optimistic[b] - optimistic[a] || a - b);
       for (const m of order) {
         if (best >= 0 && !Number.isNaN(bestScore) && optimistic[m] < (metric.direction === "max" ? bestScore : -bestScore)) break;
-        consider(m, scorer.score(sum, predictions[m], divisor));
+        consider(m, scorer.score(predictions[m], divisor));
         evaluations++;
       }
     } else {
-      for (let m = 0; m < candidates; m++) consider(m, scorer.score(sum, predictions[m], divisor));
+      for (let m = 0; m < candidates; m++) consider(m, scorer.score(predictions[m], divisor));
       evaluations += candidates;
     }
     const p = predictions[best];

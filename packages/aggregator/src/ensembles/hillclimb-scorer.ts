@@ -1,4 +1,5 @@
-import { averagePrecision, createMetricScratch, type Metric, type MetricScratch, rocAuc, LOG_LOSS_EPSILON, type Task } from "@nightshift/core";
+import { averagePrecision, type Metric, rocAuc, LOG_LOSS_EPSILON, type Task } from "@nightshift/core";
+import { type BinCounter, createBinCounter } from "./bin-count-kernel.js";
 
 /** Smallest and largest value of a prediction array. */
 export interface ValueRange {
@@ -6,11 +7,13 @@ export interface ValueRange {
   readonly max: number;
 }
 
+/** Smallest and largest value; both NaN when any value is NaN. */
 export function valueRange(values: Float32Array | Float64Array): ValueRange {
   let min = Infinity;
   let max = -Infinity;
   for (let i = 0; i < values.length; i++) {
     const v = values[i];
+    if (v !== v) return { min: Number.NaN, max: Number.NaN };
     if (v < min) min = v;
     if (v > max) max = v;
   }
@@ -19,9 +22,9 @@ export function valueRange(values: Float32Array | Float64Array): ValueRange {
 
 /**
  * Scores the ensembles greedy selection tries: the metric of (sum + candidate) / divisor, where
- * `sum` is the running sum of the members picked so far (stored layout) and `divisor` the
- * number of picks after adding the candidate. Nothing proportional to the rows is allocated
- * per call.
+ * `sum` is the running sum of the members picked so far (stored layout, owned by the scorer so
+ * a kernel can keep it in its own memory) and `divisor` the number of picks after adding the
+ * candidate. Nothing proportional to the rows is allocated per call.
  *
  * Some metrics also offer cheap `bounds`: an interval that surely holds the exact score, from
  * one counting pass without a sort, so selection can skip candidates that cannot win.
@@ -29,9 +32,11 @@ export function valueRange(values: Float32Array | Float64Array): ValueRange {
 export interface HillclimbScorer {
   readonly metric: Metric;
   readonly bounded: boolean;
-  score(sum: Float64Array, add: Float32Array | null, divisor: number): number;
-  /** Writes [lower, upper] into `out`; only when `bounded`. */
-  bounds(sum: Float64Array, sumRange: ValueRange, add: Float32Array | null, addRange: ValueRange, out: Float64Array): void;
+  /** The running sum of picks (rows × width); selection adds into it. */
+  readonly sum: Float64Array;
+  score(add: Float32Array | null, divisor: number): number;
+  /** Writes [lower, upper] into `out`, `sumRange` being the current range of `sum`; only when `bounded`. */
+  bounds(sumRange: ValueRange, add: Float32Array | null, addRange: ValueRange, out: Float64Array): void;
 }
 
 /**
@@ -49,6 +54,7 @@ export function createHillclimbScorer(metric: Metric, task: Task, target: Int32A
 
 class RegistryScorer implements HillclimbScorer {
   readonly bounded = false;
+  readonly sum: Float64Array;
   private readonly buffer: Float64Array;
   private readonly fullWidth: number;
 
@@ -60,10 +66,11 @@ class RegistryScorer implements HillclimbScorer {
   ) {
     this.fullWidth = task === "binary" ? 2 : width;
     this.buffer = new Float64Array(target.length * this.fullWidth);
+    this.sum = new Float64Array(target.length * width);
   }
 
-  score(sum: Float64Array, add: Float32Array | null, divisor: number): number {
-    const { buffer } = this;
+  score(add: Float32Array | null, divisor: number): number {
+    const { buffer, sum } = this;
     if (this.task === "binary") {
       for (let i = 0; i < sum.length; i++) {
         const q = (sum[i] + (add === null ? 0 : add[i])) / divisor;
@@ -83,7 +90,7 @@ class RegistryScorer implements HillclimbScorer {
 /**
  * Binary average precision and ROC AUC. Both depend only on the order of the scores and their
  * ties, and dividing by the number of picks keeps the order, so the exact score is computed on
- * the sums (core's scikit-learn-checked functions). Dividing could only merge two sums that
+ * the sums, with the result of core's scikit-learn-checked functions. Dividing could only merge two sums that
  * differ in the last bit of a double; sums of float32 probabilities are multiples of 2^-24 of
  * their smallest term, far coarser, so this does not happen for probabilities above ~1e-9.
  *
@@ -93,16 +100,20 @@ class RegistryScorer implements HillclimbScorer {
  *   count between 0 and 1 each;
  * - average precision: with TP, FP counted above the bin and a positives, b negatives inside,
  *   each positive's precision is at most (TP + a)/(TP + FP + a) (all positives tied at the top)
- *   and the j-th is at least (TP + j)/(TP + FP + b + j) (all negatives above it). Rows below
- *   the bin are unaffected by its order.
+ *   and at least (TP + 1)/(TP + FP + b + 1) (all negatives above it, it the first positive).
+ *   Rows below the bin are unaffected by its order.
  */
 class BinaryRankScorer implements HillclimbScorer {
   readonly bounded = true;
+  readonly sum: Float64Array;
+  private readonly counter: BinCounter;
   private readonly positive: Uint8Array;
   private readonly values: Float64Array;
-  private readonly scratch: MetricScratch = createMetricScratch();
+  private readonly segments: Float64Array;
   private readonly binCount: number;
-  private readonly counts: Uint32Array;
+  private readonly starts: Int32Array;
+  private readonly positiveCursor: Int32Array;
+  private readonly negativeCursor: Int32Array;
   private readonly isAveragePrecision: boolean;
 
   constructor(
@@ -113,47 +124,150 @@ class BinaryRankScorer implements HillclimbScorer {
     this.positive = new Uint8Array(n);
     for (let i = 0; i < n; i++) this.positive[i] = target[i] === 1 ? 1 : 0;
     this.values = new Float64Array(n);
+    this.segments = new Float64Array(n);
     this.isAveragePrecision = metric.name === "average_precision";
     // About eight rows per bin: finer bins prune more candidates but cost more to clear and scan
     // (measured on 10^5 rows in bench/ensemble-selection.bench.ts).
     this.binCount = Math.min(1 << 14, Math.max(1 << 8, nextPowerOfTwo(Math.ceil(n / 8))));
-    this.counts = new Uint32Array(2 * this.binCount);
+    this.starts = new Int32Array(this.binCount + 1);
+    this.positiveCursor = new Int32Array(this.binCount + 1);
+    this.negativeCursor = new Int32Array(this.binCount + 1);
+    this.counter = createBinCounter(this.positive, this.binCount);
+    this.sum = this.counter.sum;
   }
 
-  score(sum: Float64Array, add: Float32Array | null, _divisor: number): number {
-    const { values } = this;
-    if (add === null) values.set(sum);
-    else for (let i = 0; i < values.length; i++) values[i] = sum[i] + add[i];
-    return this.isAveragePrecision ? averagePrecision(this.positive, values, this.scratch) : rocAuc(this.positive, values, this.scratch);
+  /**
+   * The exact score, through the same bins: rows are counted per bin; only bins whose order
+   * matters (a positive together with any other row) are gathered and sorted, by class; then
+   * the distinct scores are walked from the top as core's `averagePrecision` and `rocAuc` walk
+   * them (same thresholds, same expressions, same order), so the result is theirs bit for bit,
+   * at the cost of about three passes instead of a full sort.
+   */
+  score(add: Float32Array | null, _divisor: number): number {
+    const { values, positive, counter, starts, positiveCursor, negativeCursor, segments, binCount, sum } = this;
+    const n = values.length;
+    let lo = Infinity;
+    let hi = -Infinity;
+    for (let i = 0; i < n; i++) {
+      const v = add === null ? sum[i] : sum[i] + add[i];
+      values[i] = v;
+      if (v < lo) lo = v;
+      if (v > hi) hi = v;
+    }
+    // Core refuses non-finite scores with its own message.
+    if (!Number.isFinite(lo) || !Number.isFinite(hi)) return this.isAveragePrecision ? averagePrecision(positive, values) : rocAuc(positive, values);
+    const scale = hi > lo ? binCount / (hi - lo) : 0;
+    if (add !== null) counter.candidate.set(add);
+    // The kernel's bins equal Math.floor((values[i] - lo) * scale): the same double arithmetic.
+    counter.count(add !== null, lo, scale);
+    const counts = counter.counts;
+    let cursor = 0;
+    for (let bin = 0; bin <= binCount; bin++) {
+      const a = counts[2 * bin + 1];
+      const b = counts[2 * bin];
+      if (a > 0 && (b > 0 || a > 1)) {
+        starts[bin] = cursor;
+        positiveCursor[bin] = cursor;
+        negativeCursor[bin] = cursor + a;
+        cursor += a + b;
+      } else starts[bin] = -1;
+    }
+    for (let i = 0; i < n; i++) {
+      const bin = Math.floor((values[i] - lo) * scale);
+      if (starts[bin] < 0) continue;
+      if (positive[i] === 1) segments[positiveCursor[bin]++] = values[i];
+      else segments[negativeCursor[bin]++] = values[i];
+    }
+    let positives = 0;
+    let negatives = 0;
+    for (let bin = 0; bin <= binCount; bin++) {
+      positives += counts[2 * bin + 1];
+      negatives += counts[2 * bin];
+    }
+    let tp = 0;
+    let fp = 0;
+    let precisionSum = 0;
+    let twiceArea = 0;
+    for (let bin = binCount; bin >= 0; bin--) {
+      const a = counts[2 * bin + 1];
+      const b = counts[2 * bin];
+      const start = starts[bin];
+      if (start < 0) {
+        if (a === 0) {
+          // Negatives only: each of their thresholds adds Δfp·2·tp to twice the area and +0 to AP.
+          twiceArea += b * (tp + tp);
+          fp += b;
+        } else if (a === 1) {
+          const previous = tp;
+          tp += 1;
+          precisionSum += ((tp - previous) / positives) * (tp / (tp + fp));
+        }
+        continue;
+      }
+      sortRange(segments, start, start + a);
+      sortRange(segments, start + a, start + a + b);
+      let p = start + a - 1;
+      let q = start + a + b - 1;
+      while (p >= start || q >= start + a) {
+        let threshold: number;
+        if (p < start) threshold = segments[q];
+        else if (q < start + a) threshold = segments[p];
+        else threshold = segments[p] > segments[q] ? segments[p] : segments[q];
+        const previousTp = tp;
+        const previousFp = fp;
+        while (p >= start && segments[p] === threshold) {
+          tp++;
+          p--;
+        }
+        while (q >= start + a && segments[q] === threshold) {
+          fp++;
+          q--;
+        }
+        precisionSum += ((tp - previousTp) / positives) * (tp / (tp + fp));
+        twiceArea += (fp - previousFp) * (tp + previousTp);
+      }
+    }
+    if (this.isAveragePrecision) return positives === 0 ? 0 : precisionSum;
+    return positives === 0 || negatives === 0 ? Number.NaN : twiceArea / (2 * positives * negatives);
   }
 
-  bounds(sum: Float64Array, sumRange: ValueRange, add: Float32Array | null, addRange: ValueRange, out: Float64Array): void {
-    const { counts, positive, binCount } = this;
-    counts.fill(0);
-    const n = sum.length;
+  bounds(sumRange: ValueRange, add: Float32Array | null, addRange: ValueRange, out: Float64Array): void {
+    const { counter, binCount } = this;
     // Rounding is monotone, so every sum + add lies in [lo, hi] and equal sums share a bin.
     const lo = add === null ? sumRange.min : sumRange.min + addRange.min;
     const hi = add === null ? sumRange.max : sumRange.max + addRange.max;
-    const scale = hi > lo ? binCount / (hi - lo) : 0;
-    const top = binCount - 1;
-    if (add === null) {
-      for (let i = 0; i < n; i++) {
-        let bin = Math.floor((sum[i] - lo) * scale);
-        if (bin > top) bin = top;
-        counts[(bin << 1) | positive[i]]++;
-      }
-    } else {
-      for (let i = 0; i < n; i++) {
-        let bin = Math.floor((sum[i] + add[i] - lo) * scale);
-        if (bin > top) bin = top;
-        counts[(bin << 1) | positive[i]]++;
-      }
+    if (!Number.isFinite(lo) || !Number.isFinite(hi)) {
+      // A NaN or infinite prediction: no bound, the exact score decides.
+      out[0] = -Infinity;
+      out[1] = Infinity;
+      return;
     }
-    if (this.isAveragePrecision) averagePrecisionBounds(counts, binCount, out);
-    else rocAucBounds(counts, binCount, out);
+    const scale = hi > lo ? binCount / (hi - lo) : 0;
+    if (add !== null) counter.candidate.set(add);
+    counter.count(add !== null, lo, scale);
+    const counts = counter.counts;
+    if (this.isAveragePrecision) averagePrecisionBounds(counts, binCount + 1, out);
+    else rocAucBounds(counts, binCount + 1, out);
     // The exact score sums in another order: widen by far more than its rounding error.
     out[0] -= BOUND_SLACK;
     out[1] += BOUND_SLACK;
+  }
+}
+
+/** Ascending sort of values[from, to): insertion sort for the short runs most bins hold. */
+function sortRange(values: Float64Array, from: number, to: number): void {
+  if (to - from > 32) {
+    values.subarray(from, to).sort();
+    return;
+  }
+  for (let i = from + 1; i < to; i++) {
+    const v = values[i];
+    let j = i - 1;
+    while (j >= from && values[j] > v) {
+      values[j + 1] = values[j];
+      j--;
+    }
+    values[j + 1] = v;
   }
 }
 
@@ -166,7 +280,7 @@ function nextPowerOfTwo(n: number): number {
 }
 
 /** counts: per bin [negatives, positives], bins ascending by score. */
-function averagePrecisionBounds(counts: Uint32Array, binCount: number, out: Float64Array): void {
+function averagePrecisionBounds(counts: Int32Array, binCount: number, out: Float64Array): void {
   let tp = 0;
   let fp = 0;
   let lower = 0;
@@ -177,7 +291,8 @@ function averagePrecisionBounds(counts: Uint32Array, binCount: number, out: Floa
     if (a > 0) {
       const above = tp + fp;
       upper += (a * (tp + a)) / (above + a);
-      for (let j = 1; j <= a; j++) lower += (tp + j) / (above + b + j);
+      // (TP + j)/(TP + FP + b + j) grows with j, so its first term bounds all a of them from below.
+      lower += (a * (tp + 1)) / (above + b + 1);
     }
     tp += a;
     fp += b;
@@ -187,7 +302,7 @@ function averagePrecisionBounds(counts: Uint32Array, binCount: number, out: Floa
   out[1] = tp === 0 ? 0 : upper / tp;
 }
 
-function rocAucBounds(counts: Uint32Array, binCount: number, out: Float64Array): void {
+function rocAucBounds(counts: Int32Array, binCount: number, out: Float64Array): void {
   let negativesBelow = 0;
   let positives = 0;
   let cross = 0;
@@ -216,13 +331,17 @@ const LOG_RUN = 16;
  */
 class BinaryLogLossScorer implements HillclimbScorer {
   readonly bounded = false;
+  readonly sum: Float64Array;
 
   constructor(
     readonly metric: Metric,
     private readonly target: Int32Array,
-  ) {}
+  ) {
+    this.sum = new Float64Array(target.length);
+  }
 
-  score(sum: Float64Array, add: Float32Array | null, divisor: number): number {
+  score(add: Float32Array | null, divisor: number): number {
+    const { sum } = this;
     const y = this.target;
     const n = y.length;
     if (n === 0) return Number.NaN;

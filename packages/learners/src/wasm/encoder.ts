@@ -87,8 +87,17 @@ export class FunctionBody {
   }
 
   // Memory (§5.4.6).
+  i32Load(offset: number): this {
+    return this.op(0x28, ...this.memarg(2, offset));
+  }
+  f32Load(offset: number): this {
+    return this.op(0x2a, ...this.memarg(2, offset));
+  }
   f64Load(offset: number): this {
     return this.op(0x2b, ...this.memarg(3, offset));
+  }
+  i32Load8U(offset: number): this {
+    return this.op(0x2d, ...this.memarg(0, offset));
   }
   i32Store(offset: number): this {
     return this.op(0x36, ...this.memarg(2, offset));
@@ -127,6 +136,18 @@ export class FunctionBody {
   }
   f64Add(): this {
     return this.op(0xa0);
+  }
+  f64Sub(): this {
+    return this.op(0xa1);
+  }
+  f64Mul(): this {
+    return this.op(0xa2);
+  }
+  i32TruncF64S(): this {
+    return this.op(0xaa);
+  }
+  f64PromoteF32(): this {
+    return this.op(0xbb);
   }
 
   // Vector (§5.4.8).
