@@ -184,7 +184,8 @@ describe("hillclimb scorers", () => {
         scorer.bounds(valueRange(sum), predictions[3], valueRange(predictions[3]), bounds);
         expect(bounds[0]).toBeLessThanOrEqual(exact);
         expect(bounds[1]).toBeGreaterThanOrEqual(exact);
-        expect(bounds[1] - bounds[0]).toBeLessThan(0.05);
+        // The optimistic side (both are maximised) is what prunes: it must be close.
+        expect(bounds[1] - exact).toBeLessThan(0.02);
       }
     }
   });

@@ -110,7 +110,7 @@ export function greedySelection(
       order.sort((a, b) => optimistic[b] - optimistic[a] || a - b);
       for (const m of order) {
         if (best >= 0 && !Number.isNaN(bestScore) && optimistic[m] < (metric.direction === "max" ? bestScore : -bestScore)) break;
-        consider(m, scorer.score(predictions[m], divisor));
+        consider(m, scorer.score(predictions[m], divisor, { sum: sumRange, add: ranges[m] }));
         evaluations++;
       }
     } else {

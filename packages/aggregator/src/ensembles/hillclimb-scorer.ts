@@ -1,5 +1,6 @@
-import { averagePrecision, type Metric, rocAuc, LOG_LOSS_EPSILON, type Task } from "@nightshift/core";
+import { averagePrecision, type Metric, rocAuc, type Task } from "@nightshift/core";
 import { type BinCounter, createBinCounter } from "./bin-count-kernel.js";
+import { createLogLossKernel, type LogLossKernel } from "./log-loss-kernel.js";
 
 /** Smallest and largest value of a prediction array. */
 export interface ValueRange {
@@ -34,7 +35,8 @@ export interface HillclimbScorer {
   readonly bounded: boolean;
   /** The running sum of picks (rows × width); selection adds into it. */
   readonly sum: Float64Array;
-  score(add: Float32Array | null, divisor: number): number;
+  /** `ranges`, when the caller knows them, saves a scorer that bins the scores two passes. */
+  score(add: Float32Array | null, divisor: number, ranges?: { readonly sum: ValueRange; readonly add: ValueRange }): number;
   /** Writes [lower, upper] into `out`, `sumRange` being the current range of `sum`; only when `bounded`. */
   bounds(sumRange: ValueRange, add: Float32Array | null, addRange: ValueRange, out: Float64Array): void;
 }
@@ -99,21 +101,19 @@ class RegistryScorer implements HillclimbScorer {
  * - ROC AUC: pairs across bins count exactly; the a·b positive-negative pairs inside a bin
  *   count between 0 and 1 each;
  * - average precision: with TP, FP counted above the bin and a positives, b negatives inside,
- *   each positive's precision is at most (TP + a)/(TP + FP + a) (all positives tied at the top)
- *   and at least (TP + 1)/(TP + FP + b + 1) (all negatives above it, it the first positive).
- *   Rows below the bin are unaffected by its order.
+ *   each positive's precision is at most (TP + a)/(TP + FP + a) (all positives tied at the top).
+ *   Rows below the bin are unaffected by its order. (Only this upper side is computed: selection
+ *   maximises AP; the lower bound is reported as 0.)
  */
 class BinaryRankScorer implements HillclimbScorer {
   readonly bounded = true;
   readonly sum: Float64Array;
   private readonly counter: BinCounter;
   private readonly positive: Uint8Array;
-  private readonly values: Float64Array;
-  private readonly segments: Float64Array;
-  private readonly binCount: number;
+  /** Per bin: 0, or 1 + the start of its gathered segment. */
   private readonly starts: Int32Array;
-  private readonly positiveCursor: Int32Array;
-  private readonly negativeCursor: Int32Array;
+  private readonly positives: number;
+  private readonly binCount: number;
   private readonly isAveragePrecision: boolean;
 
   constructor(
@@ -123,16 +123,15 @@ class BinaryRankScorer implements HillclimbScorer {
     const n = target.length;
     this.positive = new Uint8Array(n);
     for (let i = 0; i < n; i++) this.positive[i] = target[i] === 1 ? 1 : 0;
-    this.values = new Float64Array(n);
-    this.segments = new Float64Array(n);
     this.isAveragePrecision = metric.name === "average_precision";
-    // About eight rows per bin: finer bins prune more candidates but cost more to clear and scan
-    // (measured on 10^5 rows in bench/ensemble-selection.bench.ts).
-    this.binCount = Math.min(1 << 14, Math.max(1 << 8, nextPowerOfTwo(Math.ceil(n / 8))));
-    this.starts = new Int32Array(this.binCount + 1);
-    this.positiveCursor = new Int32Array(this.binCount + 1);
-    this.negativeCursor = new Int32Array(this.binCount + 1);
+    // About four rows per bin: finer bins prune more candidates but cost more to clear and scan
+    // (2^13 to 2^17 bins timed on 10^5 rows with bench/ensemble-selection.bench.ts; 2^15 was fastest).
+    this.binCount = Math.min(1 << 16, Math.max(1 << 8, nextPowerOfTwo(Math.ceil(n / 4))));
     this.counter = createBinCounter(this.positive, this.binCount);
+    this.starts = new Int32Array(this.binCount + 1);
+    let positives = 0;
+    for (let i = 0; i < n; i++) positives += this.positive[i];
+    this.positives = positives;
     this.sum = this.counter.sum;
   }
 
@@ -141,49 +140,47 @@ class BinaryRankScorer implements HillclimbScorer {
    * matters (a positive together with any other row) are gathered and sorted, by class; then
    * the distinct scores are walked from the top as core's `averagePrecision` and `rocAuc` walk
    * them (same thresholds, same expressions, same order), so the result is theirs bit for bit,
-   * at the cost of about three passes instead of a full sort.
+   * at the cost of two kernel passes and short sorts instead of a full sort.
    */
-  score(add: Float32Array | null, _divisor: number): number {
-    const { values, positive, counter, starts, positiveCursor, negativeCursor, segments, binCount, sum } = this;
-    const n = values.length;
-    let lo = Infinity;
-    let hi = -Infinity;
-    for (let i = 0; i < n; i++) {
-      const v = add === null ? sum[i] : sum[i] + add[i];
-      values[i] = v;
-      if (v < lo) lo = v;
-      if (v > hi) hi = v;
+  score(add: Float32Array | null, _divisor: number, ranges?: { readonly sum: ValueRange; readonly add: ValueRange }): number {
+    const { positive, counter, binCount, sum } = this;
+    const sumRange = ranges?.sum ?? valueRange(sum);
+    const addRange = add === null ? { min: 0, max: 0 } : (ranges?.add ?? valueRange(add));
+    const lo = sumRange.min + addRange.min;
+    const hi = sumRange.max + addRange.max;
+    if (!Number.isFinite(lo) || !Number.isFinite(hi)) {
+      // Core refuses non-finite scores with its own message.
+      const values = Float64Array.from(sum, (v, i) => v + (add === null ? 0 : add[i]));
+      return this.isAveragePrecision ? averagePrecision(positive, values) : rocAuc(positive, values);
     }
-    // Core refuses non-finite scores with its own message.
-    if (!Number.isFinite(lo) || !Number.isFinite(hi)) return this.isAveragePrecision ? averagePrecision(positive, values) : rocAuc(positive, values);
     const scale = hi > lo ? binCount / (hi - lo) : 0;
     if (add !== null) counter.candidate.set(add);
-    // The kernel's bins equal Math.floor((values[i] - lo) * scale): the same double arithmetic.
     counter.count(add !== null, lo, scale);
-    const counts = counter.counts;
+    const { counts, steps, cursors, segments } = counter;
+    const { starts } = this;
+    const n = sum.length;
     let cursor = 0;
-    for (let bin = 0; bin <= binCount; bin++) {
-      const a = counts[2 * bin + 1];
-      const b = counts[2 * bin];
-      if (a > 0 && (b > 0 || a > 1)) {
-        starts[bin] = cursor;
-        positiveCursor[bin] = cursor;
-        negativeCursor[bin] = cursor + a;
-        cursor += a + b;
-      } else starts[bin] = -1;
-    }
-    for (let i = 0; i < n; i++) {
-      const bin = Math.floor((values[i] - lo) * scale);
-      if (starts[bin] < 0) continue;
-      if (positive[i] === 1) segments[positiveCursor[bin]++] = values[i];
-      else segments[negativeCursor[bin]++] = values[i];
-    }
     let positives = 0;
     let negatives = 0;
     for (let bin = 0; bin <= binCount; bin++) {
-      positives += counts[2 * bin + 1];
-      negatives += counts[2 * bin];
+      const a = counts[2 * bin + 1];
+      const b = counts[2 * bin];
+      positives += a;
+      negatives += b;
+      if (a > 0 && (b > 0 || a > 1)) {
+        starts[bin] = cursor + 1;
+        steps[bin] = 1;
+        cursors[2 * bin + 1] = cursor;
+        cursors[2 * bin] = cursor + a;
+        cursor += a + b;
+      } else {
+        starts[bin] = 0;
+        steps[bin] = 0;
+        cursors[2 * bin] = n;
+        cursors[2 * bin + 1] = n;
+      }
     }
+    counter.gather(add !== null, lo, scale);
     let tp = 0;
     let fp = 0;
     let precisionSum = 0;
@@ -191,8 +188,7 @@ class BinaryRankScorer implements HillclimbScorer {
     for (let bin = binCount; bin >= 0; bin--) {
       const a = counts[2 * bin + 1];
       const b = counts[2 * bin];
-      const start = starts[bin];
-      if (start < 0) {
+      if (starts[bin] === 0) {
         if (a === 0) {
           // Negatives only: each of their thresholds adds Δfp·2·tp to twice the area and +0 to AP.
           twiceArea += b * (tp + tp);
@@ -204,6 +200,7 @@ class BinaryRankScorer implements HillclimbScorer {
         }
         continue;
       }
+      const start = starts[bin] - 1;
       sortRange(segments, start, start + a);
       sortRange(segments, start + a, start + a + b);
       let p = start + a - 1;
@@ -245,9 +242,12 @@ class BinaryRankScorer implements HillclimbScorer {
     const scale = hi > lo ? binCount / (hi - lo) : 0;
     if (add !== null) counter.candidate.set(add);
     counter.count(add !== null, lo, scale);
-    const counts = counter.counts;
-    if (this.isAveragePrecision) averagePrecisionBounds(counts, binCount + 1, out);
-    else rocAucBounds(counts, binCount + 1, out);
+    if (this.isAveragePrecision) {
+      // No positive row: scikit-learn's AP is 0 (core's value too). Only the optimistic side is
+      // needed (AP is maximised); a pessimistic one would cost a division per bin, so it is 0.
+      out[0] = 0;
+      out[1] = this.positives === 0 ? 0 : counter.averagePrecisionUpper() / this.positives;
+    } else rocAucBounds(counter.counts, binCount + 1, out);
     // The exact score sums in another order: widen by far more than its rounding error.
     out[0] -= BOUND_SLACK;
     out[1] += BOUND_SLACK;
@@ -280,28 +280,6 @@ function nextPowerOfTwo(n: number): number {
 }
 
 /** counts: per bin [negatives, positives], bins ascending by score. */
-function averagePrecisionBounds(counts: Int32Array, binCount: number, out: Float64Array): void {
-  let tp = 0;
-  let fp = 0;
-  let lower = 0;
-  let upper = 0;
-  for (let bin = binCount - 1; bin >= 0; bin--) {
-    const b = counts[2 * bin];
-    const a = counts[2 * bin + 1];
-    if (a > 0) {
-      const above = tp + fp;
-      upper += (a * (tp + a)) / (above + a);
-      // (TP + j)/(TP + FP + b + j) grows with j, so its first term bounds all a of them from below.
-      lower += (a * (tp + 1)) / (above + b + 1);
-    }
-    tp += a;
-    fp += b;
-  }
-  // No positive row: scikit-learn's AP is 0 (core's value too).
-  out[0] = tp === 0 ? 0 : lower / tp;
-  out[1] = tp === 0 ? 0 : upper / tp;
-}
-
 function rocAucBounds(counts: Int32Array, binCount: number, out: Float64Array): void {
   let negativesBelow = 0;
   let positives = 0;
@@ -320,48 +298,28 @@ function rocAucBounds(counts: Int32Array, binCount: number, out: Float64Array): 
   out[1] = pairs === 0 ? Number.NaN : (cross + within) / pairs;
 }
 
-/** Clipped probabilities are multiplied in runs of this many before one logarithm: ε^16 ≈ 3e-251 cannot underflow. */
-const LOG_RUN = 16;
-
 /**
  * Binary log loss, clipped as scikit-learn's (core's `logLoss`). The logarithm dominates the
  * cost, so the probabilities of 16 rows are multiplied first and one logarithm is taken per
- * run: ln Π p = Σ ln p up to ~16 roundings of a product (relative 1e-15), far below any
- * difference selection acts on.
+ * run (log-loss-kernel.ts): ln Π p = Σ ln p up to ~16 roundings of a product (relative 1e-15),
+ * far below any difference selection acts on.
  */
 class BinaryLogLossScorer implements HillclimbScorer {
   readonly bounded = false;
   readonly sum: Float64Array;
+  private readonly kernel: LogLossKernel;
 
   constructor(
     readonly metric: Metric,
-    private readonly target: Int32Array,
+    target: Int32Array,
   ) {
-    this.sum = new Float64Array(target.length);
+    this.kernel = createLogLossKernel(Uint8Array.from(target, (y) => (y === 1 ? 1 : 0)));
+    this.sum = this.kernel.sum;
   }
 
   score(add: Float32Array | null, divisor: number): number {
-    const { sum } = this;
-    const y = this.target;
-    const n = y.length;
-    if (n === 0) return Number.NaN;
-    let total = 0;
-    let product = 1;
-    let run = 0;
-    for (let i = 0; i < n; i++) {
-      const q = (sum[i] + (add === null ? 0 : add[i])) / divisor;
-      let p = y[i] === 1 ? q : 1 - q;
-      if (p < LOG_LOSS_EPSILON) p = LOG_LOSS_EPSILON;
-      else if (p > 1 - LOG_LOSS_EPSILON) p = 1 - LOG_LOSS_EPSILON;
-      product *= p;
-      if (++run === LOG_RUN) {
-        total += Math.log(product);
-        product = 1;
-        run = 0;
-      }
-    }
-    total += Math.log(product);
-    return -total / n;
+    if (add !== null) this.kernel.candidate.set(add);
+    return this.kernel.logLoss(add !== null, divisor);
   }
 
   bounds(): void {
