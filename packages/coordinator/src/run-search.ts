@@ -41,6 +41,8 @@ export interface RunOptions {
   readonly onProgress?: (progress: Progress) => void;
   readonly onStart?: (info: { runId: string; runDir: string; resumed: boolean; trials: number; folds: number; rows: number; metric: string }) => void;
   readonly shouldStop?: () => boolean;
+  /** Run the final step (ensembles, refits, hold-out, ensemble.json) when the search completes; default true. */
+  readonly finalStep?: boolean;
   /** Runs fold jobs somewhere else than on local threads (distributed mode). */
   readonly runner?: (setup: { pack: Uint8Array; foldTests: Uint32Array[]; metric: string }) => JobRunner;
 }
@@ -196,7 +198,7 @@ export async function runSearch(options: RunOptions): Promise<RunResult> {
       store.setMeta("state", summary.completed ? "finished" : summary.stoppedBy);
       store.addEvent(summary.completed ? "run_finished" : "run_stopped", { run: runId, stoppedBy: summary.stoppedBy, foldsRun: summary.foldsRun });
       // A completed search goes on to its final step on the same runner; a finished run resumed finds it done.
-      if (summary.completed) finalStep = await runFinalStep({ runDir, store, runner, version: NIGHTSHIFT_VERSION });
+      if (summary.completed && options.finalStep !== false) finalStep = await runFinalStep({ runDir, store, runner, version: NIGHTSHIFT_VERSION });
     } finally {
       await runner.close();
     }
