@@ -54,12 +54,12 @@ export function buildEnsembles(set: OutOfFoldSet, metric: Metric, settings: Ense
   if (available === 0) throw new RangeError("no finished trial with out-of-fold predictions: no ensemble can be built");
   const notes: string[] = [];
   const { task, width } = set;
-  const positional = (kind: EnsembleKind, weights: Float64Array, extra: Partial<EnsembleSpec> = {}): EnsembleSpec => ({
-    kind,
-    // A member an averaging ensemble never picked adds nothing; a stacker shows every coefficient.
-    members: Array.from(weights, (weight, m) => ({ trial: m, weight })).filter((m) => kind === "stacking" || m.weight !== 0),
-    ...extra,
-  });
+  const positional = (kind: EnsembleKind, weights: Float64Array, extra: Partial<EnsembleSpec> = {}): EnsembleSpec => {
+    // A member with weight 0 (never picked, or a non-negative stacker's zero) adds nothing: it is
+    // neither refitted nor exported (one is kept if all are 0). The board still lists every stacker coefficient.
+    const members = Array.from(weights, (weight, m) => ({ trial: m, weight })).filter((m) => m.weight !== 0);
+    return { kind, members: members.length > 0 ? members : [{ trial: 0, weight: weights[0] }], ...extra };
+  };
 
   let curve: Float64Array = new Float64Array(0);
   const methods: Method[] = [
@@ -102,6 +102,7 @@ export function buildEnsembles(set: OutOfFoldSet, metric: Metric, settings: Ense
     const fitted = method.fit(predictions, set.target);
     const outOfFold = predictPositional(fitted, set, predictions, set.rowCount);
     const spec: EnsembleSpec = { ...fitted, members: fitted.members.map((m) => ({ trial: candidates[m.trial], weight: m.weight })) };
+    const listed = method.kind === "stacking" ? candidates.map((trial) => ({ trial, weight: spec.members.find((m) => m.trial === trial)?.weight ?? 0 })) : spec.members;
     const folds = scoreByFold(metric, set, outOfFold);
     const oof = meanAndStd(folds);
     const nested = meanAndStd(nestedFolds);
@@ -117,7 +118,7 @@ export function buildEnsembles(set: OutOfFoldSet, metric: Metric, settings: Ense
         tie_with_best: !(test.pValue < 0.05),
         p_value: finiteOrNull(test.pValue),
       },
-      members: spec.members,
+      members: listed,
       curve: method.kind === "selection" ? Array.from(curve, finiteOrNull) : [],
       ...(spec.intercepts ? { intercepts: spec.intercepts } : {}),
       candidates: top,
