@@ -134,14 +134,16 @@ describe("ensembles, the hold-out and the exported predictor", () => {
     expect(out.every((o) => o.label === (Number(o.probability_yes) >= 0.3 ? "yes" : "no"))).toBe(true);
   });
 
-  it("refuses a missing column, an empty file and a bad threshold with exit code 2 and one message", () => {
+  it("refuses a missing column, an empty file, a wrong type and a bad threshold with exit code 2 and one message", () => {
     writeRows(join(dir, "missing.csv"), csvRows.slice(0, 5), featureColumns.filter((c) => c !== "vibration_kurtosis"));
     writeFileSync(join(dir, "empty.csv"), "");
     writeFileSync(join(dir, "header.csv"), `${featureColumns.join(",")}\n`);
+    writeRows(join(dir, "text.csv"), csvRows.slice(0, 5).map((row, i) => (i === 2 ? { ...row, vibration_kurtosis: "high" } : row)), featureColumns);
     for (const [args, message] of [
       [["predict", one, "missing.csv"], /vibration_kurtosis/],
       [["predict", one, "empty.csv"], /empty/],
       [["predict", one, "header.csv"], /no rows to predict/],
+      [["predict", one, "text.csv"], /text\.csv:4: column "vibration_kurtosis".*expected a number/],
       [["predict", one, "header.csv", "--threshold", "2"], /--threshold: must be a probability/],
       [["predict", dir, "header.csv"], /no ensemble\.json/],
     ] as const) {
