@@ -7,10 +7,13 @@ import {
   EXPORT_VERSION,
   type BuiltEnsemble,
   type EnsembleBuild,
+  EnsembleSummarySchema,
   type ExportedEnsemble,
   ExportedEnsembleSchema,
   type Holdout,
+  HoldoutSchema,
   type Importance,
+  ImportanceSchema,
   loadEnsemble,
   permutationImportance,
   readOutOfFold,
@@ -127,8 +130,13 @@ export async function runFinalStep(options: FinalStepOptions): Promise<FinalStep
       return { status: "no_ensemble", message, final: null, exported: null, notes: [] };
     }
     const build = buildEnsembles(set, metric, plan.ensemble, facts.testFraction);
-    for (const e of build.ensembles) store.putArtifact(`ensemble.${e.spec.kind}`, "ensemble", e.summary);
-    store.addEvent("ensembles_built", { final: build.final, notes: build.notes, ensembles: build.ensembles.map((e) => ({ kind: e.spec.kind, mean: e.summary.mean, nested: e.summary.nested.mean })) });
+    for (const e of build.ensembles) store.putArtifact(`ensemble.${e.spec.kind}`, "ensemble", EnsembleSummarySchema.parse(e.summary));
+    store.addEvent("ensembles_built", {
+      final: build.final,
+      notes: build.notes,
+      single: { trial: build.single.spec.members[0].trial, mean: build.single.summary.mean, nested: build.single.summary.nested.mean },
+      ensembles: build.ensembles.map((e) => ({ kind: e.spec.kind, mean: e.summary.mean, nested: e.summary.nested.mean })),
+    });
 
     const trials = new Map(store.trials().map((t) => [t.trial, t]));
     const needed = [...new Set([...build.single.spec.members, ...build.ensembles.flatMap((e) => e.spec.members)].map((m) => m.trial))].sort((a, b) => a - b);
@@ -208,9 +216,9 @@ export async function runFinalStep(options: FinalStepOptions): Promise<FinalStep
         baseline: finiteOrNull(importance.baseline),
         features: importance.features.map((f) => ({ name: f.name, mean: finiteOrNull(f.mean), std: finiteOrNull(f.std) })).sort((a, b) => (b.mean ?? -Infinity) - (a.mean ?? -Infinity)),
       };
-      store.putArtifact("importance", "importance", importanceArtifact);
+      store.putArtifact("importance", "importance", ImportanceSchema.parse(importanceArtifact));
       const holdoutArtifact: Holdout = { opened_at: openedAt, scores, rows: holdout.rowCount, final: chosen.name };
-      store.putArtifact("holdout", "holdout", holdoutArtifact);
+      store.putArtifact("holdout", "holdout", HoldoutSchema.parse(holdoutArtifact));
       store.addEvent("holdout_opened", { opened_at: openedAt, rows: holdout.rowCount, final: chosen.name, score: holdoutScore });
     }
 
