@@ -3,7 +3,7 @@
  * positives; first 80,000 rows train, last 20,000 predicted), against scikit-learn 1.2.1 run on
  * the same rows in the same script (bench/lib/sklearn_linear_knn.py, one thread).
  *
- * usage: npx tsx bench/linear-knn.bench.ts [--l2 1] [--k 15] [--repeats 5]
+ * usage: npx tsx bench/linear-knn.bench.ts [--l2 1] [--k 15] [--repeats 7]
  * Targets: logistic fit ≤ 2× scikit-learn's lbfgs with test AP within 0.005; k-NN predict ≤ 1×
  * scikit-learn's brute force.
  */
@@ -17,7 +17,7 @@ import { averagePrecision } from "./lib/average-precision.js";
 import { loadHypercube, trainViewOf } from "./lib/hypercube.js";
 
 const here = dirname(fileURLToPath(import.meta.url));
-const { values } = parseArgs({ options: { l2: { type: "string", default: "1" }, k: { type: "string", default: "15" }, repeats: { type: "string", default: "5" } } });
+const { values } = parseArgs({ options: { l2: { type: "string", default: "1" }, k: { type: "string", default: "15" }, repeats: { type: "string", default: "7" } } });
 const l2 = Number(values.l2);
 const k = Number(values.k);
 const repeats = Number(values.repeats);

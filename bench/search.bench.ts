@@ -1,6 +1,6 @@
 /**
  * The local search's own costs, measured through the real coordinator, pool and store:
- * 1. dispatch + commit overhead per fold job with a trivial learner (depth-1 tree on 300 rows):
+ * 1. dispatch + commit overhead per fold job with a trivial learner (depth-1 tree on 800 rows):
  *    wall time per job minus the job's own fit + predict time. Target <= 5 ms.
  * 2. throughput of the demo plan with 2 workers against 1 worker on this machine's 2 cores.
  *    Target >= 1.7x. The 1-worker run is the reference, measured in the same script.
@@ -36,7 +36,7 @@ async function timedRun(plan: string, workers: number, label: string): Promise<{
   return { seconds, jobs: scores.length, jobSeconds: scores.reduce((s, r) => s + r.fitSeconds + r.predictSeconds, 0) };
 }
 
-writeData("tiny.csv", 15, 20);
+writeData("tiny.csv", 40, 20);
 const trivial = await timedRun(
   `name: overhead\nseed: 1\ndata: { train: tiny.csv, target: failed_within_30d, ignore: [turbine_id], holdout: 0 }\nfolds: { k: 5 }\nbudget: { trials: 300 }\nfamilies:\n  tree: { depth: 1 }\n`,
   1,

@@ -1,5 +1,5 @@
 import type { Job } from "@nightshift/core";
-import type { OutcomeOf } from "@nightshift/worker";
+import { type OutcomeOf, timeLimitMessage } from "@nightshift/worker";
 
 /**
  * Where jobs run: local worker threads, or Redis workers. The scheduler and the final step
@@ -15,7 +15,7 @@ export interface JobRunner {
 /** A job over its time limit: recorded as timed out, its thread replaced. */
 export class JobTimeoutError extends Error {
   constructor(readonly seconds: number) {
-    super(`stopped after ${seconds.toFixed(0)} s (the plan's trial_minutes limit)`);
+    super(timeLimitMessage(seconds));
     this.name = "JobTimeoutError";
   }
 }

@@ -2,6 +2,7 @@ import { mkdtempSync, rmSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { afterAll, describe, expect, it } from "vitest";
+import { MAX_RECORD_CHARS } from "../src/csv/csv-records.js";
 import { parseCsvDataset, readCsvDataset, type IngestOptions } from "../src/csv/read-csv.js";
 import { InputError } from "../src/errors.js";
 import { planFolds } from "../src/splits/plan-folds.js";
@@ -97,6 +98,57 @@ describe("bad CSV input gives one InputError naming file and line", () => {
   it("a binary task with three classes", async () => {
     const error = await fileError("a,y\n1,x\n2,y\n3,z\n", { target: "y", task: "binary" });
     expect(error.message).toMatch(/data\.csv: column "y": the task is binary but the target has 3 classes/);
+  });
+
+  it("the line of a bad value after CRLF line ends inside quoted fields, each counted once", async () => {
+    const error = await fileError('note,y\r\n"two\r\nlines",0.5\r\n"x",1.5\r\ny,oops\r\n', { target: "y", task: "regression" });
+    expect(error.message).toMatch(/data\.csv:5: column "y": the target of a regression must be numeric, found "oops"/);
+  });
+
+  it("the line of a ragged row after blank lines, which are skipped but counted", async () => {
+    const error = await fileError("\na,y\n1,0\n\n\n2,1\n3\n", { target: "y" });
+    expect(error.message).toMatch(/data\.csv:7: this row has 1 fields but the header has 2/);
+  });
+
+  it("a line of spaces or a quoted empty field is a row, not a blank line", async () => {
+    expect((await fileError("a,y\n1,0\n  \n2,1\n", { target: "y" })).message).toMatch(/data\.csv:3: this row has 1 fields but the header has 2/);
+    expect((await fileError('a,y\n1,0\n""\n2,1\n', { target: "y" })).message).toMatch(/data\.csv:3: this row has 1 fields but the header has 2/);
+  });
+
+  it("an unterminated quote names the line where the quote opens, after multi-line records", async () => {
+    const error = await fileError('note,y\n"a\nb",0\nc,1\nd,"1\ne,0\nf,1\n', { target: "y" });
+    expect(error.message).toMatch(/data\.csv:5: a quoted field that starts on this line or later is never closed \(the file ends at line 7 inside quotes\)/);
+  });
+
+  it("text after a closing quote names the line where that quoted field opens", async () => {
+    const error = await fileError('note,y\n"a\nb",0\nc,1\n"d\ne"f,0\ng,1\n', { target: "y" });
+    expect(error.message).toMatch(/data\.csv:5: a closing quote is followed by more text/);
+  });
+
+  it("the line of a bad value in a file of several reads, with multi-line fields across read boundaries", async () => {
+    // About 3 MB: the file is read in 1 MB pieces, so records straddle pieces.
+    const rows = ["note,x,y"];
+    let line = 1;
+    for (let i = 0; i < 40000; i++) {
+      const multiline = i % 7 === 0;
+      rows.push(multiline ? `"row ${i}\r\n${"continued, ".repeat(i % 5)}""quoted""",${i},${i % 2}` : `row ${i} ${"word ".repeat(i % 9)},${i},${i % 2}`);
+      line += multiline ? 2 : 1;
+    }
+    rows.push("last,7");
+    line += 1;
+    const error = await fileError(`${rows.join("\r\n")}\r\n`, { target: "y" }, "large.csv");
+    expect(error.message).toMatch(new RegExp(`large\\.csv:${line}: this row has 2 fields but the header has 3`));
+  });
+
+  it("a quote left open in a large file stops the reading at a record of MAX_RECORD_CHARS", async () => {
+    const path = join(scratch, "runaway.csv");
+    const row = "1.5,2.5,0\n";
+    writeFileSync(path, `a,b,y\n1,2,0\n3,"4,1\n${row.repeat(Math.ceil(MAX_RECORD_CHARS / row.length) + 1000)}`);
+    const error = await readCsvDataset(path, { target: "y" }).catch((e: unknown) => e);
+    expect(error).toBeInstanceOf(InputError);
+    expect((error as InputError).message).toMatch(
+      new RegExp(`runaway\\.csv:3: a quoted field that starts on this line or later is not closed within ${MAX_RECORD_CHARS / 2 ** 20} M characters`),
+    );
   });
 
   it("a file that does not exist", async () => {

@@ -4,7 +4,7 @@ import { join } from "node:path";
 import { afterAll, describe, expect, it } from "vitest";
 import { parseCsvDataset, readCsvDataset } from "../src/csv/read-csv.js";
 import { SPELLING_MEMORY } from "../src/csv/column-builder.js";
-import { sniffDelimiter } from "../src/csv/sniff-delimiter.js";
+import { holdsHeaderLine, sniffDelimiter, sniffDialect } from "../src/csv/sniff-delimiter.js";
 import { trainView, type Dataset } from "../src/dataset/dataset.js";
 import type { CategoricalColumn, FeatureColumn, NumericColumn } from "../src/frame.js";
 import { MISSING_CODE } from "../src/frame.js";
@@ -72,6 +72,28 @@ describe("CSV dialect", () => {
     const crlf = parseCsvDataset("x,y\r\n1,0\r\n\r\n2,1\r\n", "crlf.csv", { target: "y" });
     expect(numeric(crlf, "x")).toEqual([1, 2]);
     expect(crlf.fingerprint).toBe(lf.fingerprint);
+  });
+
+  it("reads a quote inside an unquoted field as text, and drops spaces after a closing quote", () => {
+    // Heights in feet and inches are a common sight: 5'11" is text, not the start of a quoted field.
+    const dataset = parseCsvDataset('height,note,y\n5\'11","a, b"  ,0\n6\'2",c,1\n', "lenient.csv", { target: "y" });
+    expect(categories(dataset, "height")).toEqual(["5'11\"", "6'2\""]);
+    expect(categories(dataset, "note")).toEqual(["a, b", "c"]);
+  });
+
+  it("takes the line end from the header line, so CR-only files read like LF ones", async () => {
+    expect(sniffDialect("a;b\r\n1;2\r\n")).toEqual({ delimiter: ";", lineEnd: "\r\n" });
+    expect(sniffDialect('"x\ny",b\r1,2\r')).toEqual({ delimiter: ",", lineEnd: "\r" });
+    expect(sniffDialect("only")).toEqual({ delimiter: ",", lineEnd: "\n" });
+    // A CR at the end of what was read may be half of a CRLF: the header line is not complete yet.
+    expect(holdsHeaderLine("a,b\r")).toBe(false);
+    expect(holdsHeaderLine("a,b\r\n")).toBe(true);
+    const lf = parseCsvDataset("x,y\n1,0\n2,1\n", "lf.csv", { target: "y" });
+    const text = "x,y\r1,0\r\r2,1\r";
+    const path = join(scratch, "cr.csv");
+    writeFileSync(path, text);
+    expect(parseCsvDataset(text, path, { target: "y" }).fingerprint).toBe(lf.fingerprint);
+    expect((await readCsvDataset(path, { target: "y" })).fingerprint).toBe(lf.fingerprint);
   });
 
   it("names unnamed header columns by position", () => {
@@ -213,6 +235,30 @@ describe("reading a file", () => {
     expect(streamed.fingerprint).toBe(parsed.fingerprint);
     expect(numeric(streamed, "x")[4999]).toBeCloseTo(4999 * 0.37, 3);
     expect(column(streamed, "flag").kind).toBe("boolean");
+  });
+
+  it("drops a byte-order mark before a quoted first column name", async () => {
+    const text = '\ufeff"size, cm";y\n1,5;a\n2;b\n';
+    const path = join(scratch, "bom-quoted.csv");
+    writeFileSync(path, text);
+    for (const dataset of [await readCsvDataset(path, { target: "y" }), parseCsvDataset(text, path, { target: "y" })]) {
+      expect(dataset.features.map((c) => c.name)).toEqual(["size, cm"]);
+    }
+  });
+
+  it("keeps a character whole when a read ends inside its UTF-8 bytes", async () => {
+    // The file is read 1 MB (2^20 bytes) at a time; the 3-byte "€" starts one byte before that.
+    const header = "name,y\n";
+    const first = `${"a".repeat(2 ** 20 - 1 - header.length)}€uro`;
+    const lines = [header + first + ",0"];
+    for (let i = 0; i < 2000; i++) lines.push(`€${i % 3},${i % 2}`);
+    const text = `${lines.join("\n")}\n`;
+    const path = join(scratch, "euro.csv");
+    writeFileSync(path, text);
+    const streamed = await readCsvDataset(path, { target: "y" });
+    expect(categories(streamed, "name")[0]).toBe(first);
+    expect((column(streamed, "name") as CategoricalColumn).vocabulary.slice(1)).toEqual(["€0", "€1", "€2"]);
+    expect(streamed.fingerprint).toBe(parseCsvDataset(text, path, { target: "y" }).fingerprint);
   });
 
   it("reads every row when the first lines make it expect far fewer", async () => {

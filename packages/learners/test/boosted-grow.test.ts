@@ -1,7 +1,9 @@
-import { createRng } from "@nightshift/core";
+import { allRows, createRng } from "@nightshift/core";
+import { binCount, binRows, fitBinMapper, MISSING_BIN } from "../src/binning/bin-mapper.js";
+import { binTrainingRows } from "../src/boosted/bin-search.js";
 import { describe, expect, it } from "vitest";
 import { type GrowingData, TreeGrower } from "../src/boosted/grow-tree.js";
-import { buildHistogram, histogramIndex, histogramLayout, subtractHistogram } from "../src/boosted/histogram.js";
+import { buildHistogram, histogramLayout, rowMajorBins, subtractHistogram } from "../src/boosted/histogram.js";
 
 /** Random local bins (missing = value bin count) for n rows and the given bins per feature. */
 function randomData(n: number, valueBins: number[], seed: number): GrowingData & { grad: Float64Array; hess: Float64Array } {
@@ -20,8 +22,36 @@ function randomData(n: number, valueBins: number[], seed: number): GrowingData &
     grad[r] = (columnBins[0][r] < valueBins[0] / 2 ? -1 : 1) + 0.5 * rng.normal();
     hess[r] = 0.1 + rng.next();
   }
-  return { columnBins, histogramIndex: histogramIndex(layout, columnBins, n), layout, categorical: new Uint8Array(width), rowCount: n, grad, hess };
+  return { columnBins, rowBins: rowMajorBins(columnBins, n), layout, categorical: new Uint8Array(width), rowCount: n, grad, hess };
 }
+
+describe("branch-free binning", () => {
+  it("gives exactly the shared mapper's bins, with missing values after the value bins", () => {
+    const rng = createRng("bins");
+    const n = 3000;
+    const specials = [NaN, Infinity, -Infinity, 0, -0];
+    const wide = Float64Array.from({ length: n }, () => (rng.next() < 0.05 ? specials[rng.int(5)] : rng.normal() * 1e3));
+    const few = Float32Array.from({ length: n }, () => (rng.next() < 0.1 ? NaN : rng.int(7)));
+    const codes = Int32Array.from({ length: n }, () => (rng.next() < 0.1 ? -1 : rng.int(400)));
+    const columns = [
+      { name: "wide", kind: "numeric" as const, values: wide },
+      { name: "few", kind: "numeric" as const, values: few },
+      { name: "site", kind: "categorical" as const, codes, vocabulary: Array.from({ length: 401 }, (_, i) => `s${i}`) },
+    ];
+    const fitRows = Uint32Array.from({ length: 2000 }, (_, i) => i);
+    for (const maxBins of [255, 16, 2]) {
+      const mapper = fitBinMapper({ columns, rows: fitRows }, maxBins);
+      const view = { columns, rows: allRows(n) };
+      const counts = Uint16Array.from(mapper.features, binCount);
+      const ours = binTrainingRows(mapper, view, counts);
+      const shared = binRows(mapper, view);
+      for (let f = 0; f < 3; f++) {
+        const expected = Array.from(shared.bins[f], (b) => (b === MISSING_BIN ? counts[f] : b));
+        expect(Array.from(ours[f])).toEqual(expected);
+      }
+    }
+  });
+});
 
 describe("gradient histograms", () => {
   it("give the sibling's histogram as parent minus child (histogram subtraction)", () => {
@@ -30,9 +60,9 @@ describe("gradient histograms", () => {
     const features = Int32Array.from([0, 1, 2]);
     const rows = Uint32Array.from({ length: 500 }, (_, i) => i);
     const hist = new Float64Array(3 * layout.length);
-    buildHistogram(hist, 0, layout, data.histogramIndex, features, 3, rows, 0, 500, data.grad, data.hess, true, false);
-    buildHistogram(hist, layout.length, layout, data.histogramIndex, features, 3, rows, 0, 180, data.grad, data.hess, true, false);
-    buildHistogram(hist, 2 * layout.length, layout, data.histogramIndex, features, 3, rows, 180, 500, data.grad, data.hess, true, false);
+    buildHistogram(hist, 0, layout, data.rowBins, features, 3, rows, 0, 500, data.grad, data.hess, true, false);
+    buildHistogram(hist, layout.length, layout, data.rowBins, features, 3, rows, 0, 180, data.grad, data.hess, true, false);
+    buildHistogram(hist, 2 * layout.length, layout, data.rowBins, features, 3, rows, 180, 500, data.grad, data.hess, true, false);
     subtractHistogram(hist, 0, layout.length, layout, features, 3);
     for (let i = 0; i < layout.length; i++) expect(hist[i]).toBeCloseTo(hist[2 * layout.length + i], 9);
   });

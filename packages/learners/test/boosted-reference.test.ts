@@ -2,7 +2,6 @@ import { readFileSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { createRng, type NumericColumn } from "@nightshift/core";
-import { parse } from "csv-parse/sync";
 import { describe, expect, it } from "vitest";
 import { boostedLearner } from "../src/index.js";
 import { classes, numeric, trainView, values } from "./boosted-data.js";
@@ -21,9 +20,13 @@ interface Reference {
 const reference = JSON.parse(readFileSync(join(referenceDir, "boosted_reference.json"), "utf8")) as Reference;
 
 function readNumbers(file: string): { columns: NumericColumn[]; y: number[] } {
-  const records = parse(readFileSync(join(referenceDir, file), "utf8"), { columns: true, cast: true }) as Record<string, number>[];
-  const names = Object.keys(records[0]).filter((name) => name !== "y");
-  return { columns: names.map((name) => numeric(name, records.map((r) => r[name]))), y: records.map((r) => r.y) };
+  // The reference script writes plain numeric CSV (no quotes, no missing values).
+  const [header, ...lines] = readFileSync(join(referenceDir, file), "utf8").trim().split(/\r?\n/);
+  const names = header.split(",");
+  const rows = lines.map((line) => line.split(",").map(Number));
+  const yIndex = names.indexOf("y");
+  const columns = names.flatMap((name, j) => (j === yIndex ? [] : [numeric(name, rows.map((r) => r[j]))]));
+  return { columns, y: rows.map((r) => r[yIndex]) };
 }
 
 function foldRows(folds: number[], k: number, inFold: boolean): Uint32Array {

@@ -187,6 +187,14 @@ describe("boosted fitting", () => {
     expect(() => boostedLearner.fit(trainView([x], values([1, 2, 3, 4])), params({ class_weight: "balanced" }), createRng(1))).toThrow(FitError);
   });
 
+  it("refuses to predict on columns of another kind or count than it was fitted on", () => {
+    const { columns, target } = noisyBinary(100, 9);
+    const model = boostedLearner.fit(trainView(columns, target), params({ rounds: 3 }), createRng(1));
+    const swapped = [categorical("x0", new Array(100).fill(0), ["a"]), columns[1], columns[2]];
+    expect(() => boostedLearner.predict(model, { columns: swapped, rows: allRows(100) })).toThrow(/x0: fitted as numeric, given categorical/);
+    expect(() => boostedLearner.predict(model, { columns: columns.slice(1), rows: allRows(100) })).toThrow(/fitted on 3 features, given 2/);
+  });
+
   it("uses only the rows of the view", () => {
     const { columns, target } = noisyBinary(400, 4);
     const rows = Uint32Array.from({ length: 200 }, (_, i) => 2 * i);

@@ -2,7 +2,7 @@ import { allRows, createRng, InputError } from "@nightshift/core";
 import { describe, expect, it } from "vitest";
 import { FitError } from "../src/learner.js";
 import { knnLearner, nearestNeighbours, parseFamilyParams, screeningMargin } from "../src/index.js";
-import { categorical, classView, numeric, valueView } from "./linear-knn-fixtures.js";
+import { averagePrecision, categorical, classView, column, numeric, valueView } from "./linear-knn-fixtures.js";
 
 const defaults = knnLearner.params.parse({});
 const rng = createRng("knn-test");
@@ -72,6 +72,19 @@ describe("exact nearest-neighbour search", () => {
 });
 
 describe("knn family", () => {
+  it("ranks the held-out rows of a separable set perfectly (average precision 1)", () => {
+    // Two squares of side 2 centred at (−3, −3) and (3, 3): any two rows of one class are at most
+    // 2√2 apart, rows of different classes at least 4√2, and standardising scales both axes alike.
+    const draw = createRng("knn-separable");
+    const square = (centre: number, n: number) => Array.from({ length: n }, () => [centre - 1 + 2 * draw.next(), centre - 1 + 2 * draw.next()]);
+    const train = [...square(-3, 40), ...square(3, 40)];
+    const test = [...square(-3, 25), ...square(3, 25)];
+    const columnsOf = (points: number[][]) => [numeric("x0", points.map((p) => p[0])), numeric("x1", points.map((p) => p[1]))];
+    const model = fit(classView(columnsOf(train), ["a", "b"], train.map((_, i) => (i < 40 ? 0 : 1))));
+    const p = knnLearner.predict(model, { columns: columnsOf(test), rows: allRows(test.length) });
+    expect(averagePrecision(test.map((_, i) => i >= 25), column(p, 2, 1))).toBe(1);
+  });
+
   it("predicts the share of each class among the k nearest rows", () => {
     const x = numeric("x", [0, 1, 2, 3, 10, 11, 12]);
     const model = fit(classView([x], ["a", "b", "c"], [0, 0, 1, 1, 2, 2, 2]), { k: 3 });

@@ -31,12 +31,15 @@ function lineObjective(size: number, f: (x: Float64Array, g: Float64Array) => nu
 }
 
 // Rosenbrock (1960): minimum 0 at (1, 1, ..., 1); a narrow curved valley that defeats steepest descent.
-function rosenbrock(x: Float64Array, g: Float64Array): number {
+const rosenbrock = (x: Float64Array, g: Float64Array): number => shiftedRosenbrock(x, g, 1);
+
+/** The same valley with its two-dimensional minimum at (a, a²). */
+function shiftedRosenbrock(x: Float64Array, g: Float64Array, centre: number): number {
   let value = 0;
   g.fill(0);
   for (let i = 0; i + 1 < x.length; i++) {
     const a = x[i + 1] - x[i] * x[i];
-    const b = 1 - x[i];
+    const b = centre - x[i];
     value += 100 * a * a + b * b;
     g[i] += -400 * x[i] * a - 2 * b;
     g[i + 1] += 200 * a;
@@ -63,6 +66,23 @@ describe("L-BFGS (Nocedal & Wright Algorithm 7.5)", () => {
     const result = minimizeLbfgs(lineObjective(2, rosenbrock), Float64Array.of(-1.2, 1), { maxIterations: 3, tolerance: 1e-10 });
     expect(result.iterations).toBe(3);
     expect(result.converged).toBe(false);
+  });
+
+  it("stops when no step decreases the function any more, long before the iteration limit", () => {
+    // A bowl with a fine ripple: its many tiny local minima stop the descent at a point where the
+    // unreachable tolerance is not met, and no step along the quasi-Newton direction helps.
+    const f = (x: Float64Array, g: Float64Array) => {
+      let value = 0;
+      for (let i = 0; i < x.length; i++) {
+        value += (x[i] - 0.3) ** 2 + 1e-13 * Math.sin(1e7 * x[i]);
+        g[i] = 2 * (x[i] - 0.3) + 1e-6 * Math.cos(1e7 * x[i]);
+      }
+      return value;
+    };
+    const result = minimizeLbfgs(lineObjective(3, f), Float64Array.of(4, -2, 7), { maxIterations: 100_000, tolerance: 1e-300 });
+    expect(result.converged).toBe(false);
+    expect(result.iterations).toBeLessThan(100);
+    for (const v of result.x) expect(v).toBeCloseTo(0.3, 5);
   });
 
   it("takes steps that satisfy the strong Wolfe conditions", () => {

@@ -1,7 +1,10 @@
 import { createRng, type TrainView } from "@nightshift/core";
 import { describe, expect, it } from "vitest";
+import { binRows, fitBinMapper } from "../src/binning/bin-mapper.js";
 import { FitError } from "../src/learner.js";
 import { ParamError, parseParams } from "../src/params.js";
+import { TreeGrower } from "../src/trees/grow-tree.js";
+import { CRITERION_GINI } from "../src/trees/impurity.js";
 import { extraTreesLearner, forestLearner, type TreeEnsembleModel, treeLearner } from "../src/trees/index.js";
 import {
   accuracy,
@@ -77,6 +80,19 @@ describe("tree: known answers", () => {
     const probe = [5.5, 5.5000001];
     const p = treeLearner.predict(model, { columns: [numeric("x", probe)], rows: Uint32Array.from([0, 1]) });
     expect(Array.from(p)).toEqual([0.8, 0.2, 0, 1]);
+  });
+
+  it("the entropy criterion can choose another cut than Gini, as a hand calculation shows", () => {
+    // x = 1..8, y = 0 0 0 0 1 0 0 1. Cuts "x <= 4" and "x <= 7" (the others score worse under both):
+    //   Gini:    k=4: 4/8·(1 − 0.5² − 0.5²) = 0.25        k=7: 7/8·(1 − (1/7)² − (6/7)²) = 0.2143  <- Gini's pick
+    //   entropy: k=4: 4/8·ln 2 = 0.3466  <- entropy's    k=7: 7/8·(−(1/7)ln(1/7) − (6/7)ln(6/7)) = 0.3589
+    const view = trainView([numeric("x", [1, 2, 3, 4, 5, 6, 7, 8])], classes([0, 0, 0, 0, 1, 0, 0, 1]));
+    const edge = (model: TreeEnsembleModel) => {
+      const bins = model.mapper.features[0];
+      return bins.kind === "numeric" ? bins.upperEdges[model.trees[0].threshold[0]] : NaN;
+    };
+    expect(edge(fitFamily(families[0], view, { depth: 1 }))).toBe(7.5);
+    expect(edge(fitFamily(families[0], view, { depth: 1, criterion: "entropy" }))).toBe(4.5);
   });
 
   it("never splits on a constant feature", () => {
@@ -202,6 +218,17 @@ describe("tree families: randomness, multiclass and serialisation", () => {
     });
   }
 
+  it("extra_trees: bootstrap and row samples give working ensembles that differ from the full-row one", () => {
+    const fresh = { columns: noisyRule(200, 6, 98).columns, rows: Uint32Array.from({ length: 200 }, (_, i) => i) };
+    const freshLabels = noisyRule(200, 6, 98).y;
+    const full = extraTreesLearner.predict(fitFamily(families[2], view, { trees: 20 }), fresh);
+    for (const raw of [{ bootstrap: true }, { row_sample: 0.5 }, { bootstrap: true, row_sample: 0.3 }]) {
+      const p = extraTreesLearner.predict(fitFamily(families[2], view, { trees: 20, ...raw }), fresh);
+      expect(Array.from(p)).not.toEqual(Array.from(full));
+      expect(averagePrecision(column(p, 2, 1), freshLabels)).toBeGreaterThan(0.85);
+    }
+  });
+
   it("forest: averages tree probabilities (soft vote) and generalises on held-out rows", () => {
     const all = noisyRule(800, 6, 4, 0.2);
     const train = Uint32Array.from({ length: 600 }, (_, i) => i);
@@ -214,6 +241,13 @@ describe("tree families: randomness, multiclass and serialisation", () => {
     expect(averagePrecision(column(p, 2, 1), heldOut)).toBeGreaterThan(0.9);
     const single = treeLearner.predict(fitFamily(families[0], trainViewOf), { columns: all.columns, rows: test });
     expect(averagePrecision(column(p, 2, 1), heldOut)).toBeGreaterThan(averagePrecision(column(single, 2, 1), heldOut));
+    // Soft vote: the forest's probabilities are the mean of its trees' probabilities.
+    const mean = new Float64Array(p.length);
+    for (const tree of model.trees) {
+      const own = forestLearner.predict({ ...model, trees: [tree] }, { columns: all.columns, rows: test });
+      for (let i = 0; i < mean.length; i++) mean[i] += own[i] / model.trees.length;
+    }
+    for (let i = 0; i < p.length; i++) expect(p[i]).toBeCloseTo(mean[i], 12);
   });
 
   it("multiclass: one probability per class, rows summing to 1", () => {
@@ -291,6 +325,28 @@ describe("tree families: refusals", () => {
       expect(() => fitFamily(family, trainView(columns, classes(new Array(50).fill(1))))).toThrow(/only one class in the training rows/);
       const flat = [numeric("c", new Array(50).fill(3)), numeric("gone", new Array(50).fill(NaN))];
       expect(() => fitFamily(family, trainView(flat, classes(Array.from({ length: 50 }, (_, i) => i % 2))))).toThrow(/no usable feature/);
+    }
+  });
+});
+
+describe("tree grower: bin layouts", () => {
+  it("grows the same trees whether small nodes read the row-major copy of the bins or the columns", () => {
+    const { columns, y } = noisyRule(3000, 5, 8, 0.3);
+    const view = trainView(columns, classes(y));
+    const binned = binRows(fitBinMapper(view), view);
+    const rowBins = new Uint8Array(3000 * 5);
+    for (let f = 0; f < 5; f++) for (let r = 0; r < 3000; r++) rowBins[r * 5 + f] = binned.bins[f][r];
+    const base = { bins: binned.bins, categorical: binned.categorical, usable: Int32Array.from([0, 1, 2, 3, 4]), classes: y, classCount: 2, values: null, classWeight: Float64Array.from([1, 1]) };
+    for (const randomCuts of [false, true]) {
+      const settings = { criterion: CRITERION_GINI, maxDepth: Infinity, minLeaf: 1, minSplit: 2, splitFeatures: 2, randomCuts } as const;
+      const counts = new Float64Array(3000).fill(1);
+      const grower = new TreeGrower({ ...base, rowBins }, settings, 3000);
+      const withCopy = grower.grow(counts, createRng("layout"));
+      const columnsOnly = new TreeGrower({ ...base, rowBins: null }, settings, 3000).grow(counts, createRng("layout"));
+      expect(withCopy.nodeCount).toBeGreaterThan(100);
+      expect(columnsOnly).toEqual(withCopy);
+      // Every histogram slot taken while growing is given back.
+      expect(grower.slotsInUse()).toBe(0);
     }
   });
 });

@@ -7,6 +7,10 @@ import { type RefitOutcome, runRefitJob } from "./refit-job.js";
 export type OutcomeOf<J extends Job> = J extends RefitJob ? RefitOutcome : FoldOutcome;
 export type JobOutcome = FoldOutcome | RefitOutcome;
 
+export function isRefitOutcome(outcome: JobOutcome): outcome is RefitOutcome {
+  return "kind" in outcome && outcome.kind === "refit";
+}
+
 /**
  * Every worker transport (local threads, queue workers) runs a validated job through this one
  * function, which dispatches on the job's kind.

@@ -1,6 +1,7 @@
 import { workerData } from "node:worker_threads";
-import { JobSchema, metricByName, NODE_MAJOR, unpackDataset } from "@nightshift/core";
+import { JobSchema, metricByName, unpackDataset } from "@nightshift/core";
 import { createFoldContext, type FoldContext } from "./fold-context.js";
+import { otherNodeMajor } from "./node-major.js";
 import { type JobOutcome, runJob } from "./run-job.js";
 
 /** What the local pool hands each thread once: the shared dataset pack and the folds. */
@@ -24,6 +25,7 @@ function setup(): FoldContext {
 /** Piscina task: validate the job (workers run data, not code), then run it. */
 export default function jobTask(raw: unknown): JobOutcome {
   const job = JobSchema.parse(raw);
-  if (job.node !== NODE_MAJOR) throw new Error(`job made by Node.js ${job.node}, this worker runs Node.js ${NODE_MAJOR}: results would not be bit-identical, so it is refused`);
+  const refusal = otherNodeMajor(job.node);
+  if (refusal !== null) throw new Error(refusal);
   return runJob(setup(), job);
 }

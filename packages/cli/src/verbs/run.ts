@@ -1,7 +1,8 @@
 import { buildBoard } from "@nightshift/aggregator";
-import { runSearch } from "@nightshift/coordinator";
+import { createRedisRunner, runSearch } from "@nightshift/coordinator";
 import { InputError } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
+import { checkNamespace, checkRedis, DEFAULT_NAMESPACE, type RedisEndpoint, redisEndpoint } from "@nightshift/worker";
 import { parseVerbArgs, positiveInteger } from "../args.js";
 import { formatBoard } from "../board-table.js";
 import type { Verb } from "../commands.js";
@@ -16,6 +17,8 @@ export interface RunVerbOptions {
   readonly quiet: boolean;
   readonly trials?: number;
   readonly top?: number;
+  /** Fold jobs go to this Redis for `nightshift worker` processes, instead of local threads. */
+  readonly redis?: { readonly endpoint: RedisEndpoint; readonly namespace: string };
 }
 
 /** Runs a plan with a progress bar and Ctrl-C handling, then prints the board. Shared by `run` and `demo`. */
@@ -26,7 +29,11 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
   let planName = options.planPath;
   const onSigint = (): void => {
     if (stopping) {
-      process.stderr.write("\nnightshift: stopped at once; jobs in flight are lost and will be redone on resume.\n");
+      process.stderr.write(
+        options.redis
+          ? "\nnightshift: stopped at once; the jobs in flight finish on the workers and their results are collected on resume.\n"
+          : "\nnightshift: stopped at once; jobs in flight are lost and will be redone on resume.\n",
+      );
       process.exit(130);
     }
     stopping = true;
@@ -35,7 +42,10 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
   process.on("SIGINT", onSigint);
   process.on("SIGTERM", onSigint);
   let bar: ReturnType<typeof createProgressBar> | undefined;
+  const redis = options.redis;
   try {
+    // A wrong URL or password is one message before the run folder is touched.
+    if (redis) await checkRedis(redis.endpoint, "nightshift run --redis");
     const result = await runSearch({
       planPath: options.planPath,
       runDir: options.runDir,
@@ -43,6 +53,9 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
       workers: options.workers,
       trials: options.trials,
       shouldStop: () => stopping,
+      runner: redis
+        ? (setup) => createRedisRunner(redis.endpoint, setup, { namespace: redis.namespace, onNotice: (message) => process.stderr.write(`nightshift: ${message}\n`) })
+        : undefined,
       onStart: (info) => {
         runDir = info.runDir;
         planName = options.planPath;
@@ -86,8 +99,8 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
 
 export const runVerb: Verb = {
   name: "run",
-  usage: "run <plan.yaml> [--run-dir DIR] [--workers N] [--json] [--quiet]",
-  summary: "run (or resume) a plan's search on local worker threads",
+  usage: "run <plan.yaml> [--run-dir DIR] [--workers N | --redis URL [--namespace NAME]] [--json] [--quiet]",
+  summary: "run (or resume) a plan's search on local worker threads, or on workers sharing a Redis",
   async run(args) {
     const { values, positionals } = parseVerbArgs(
       "run",
@@ -97,13 +110,15 @@ export const runVerb: Verb = {
         runs: { type: "string" },
         workers: { type: "string" },
         redis: { type: "string" },
+        namespace: { type: "string" },
         json: { type: "boolean", default: false },
         quiet: { type: "boolean", default: false },
         top: { type: "string" },
       },
       { min: 1, max: 1, names: "one plan file: nightshift run <plan.yaml>" },
     );
-    if (values.redis !== undefined) throw new InputError("nightshift run --redis", "distributed mode is not built yet; run without --redis to use local worker threads");
+    if (values.redis !== undefined && values.workers !== undefined) throw new InputError("nightshift run", "--workers counts local threads; with --redis the jobs go to 'nightshift worker' processes (give them --concurrency)");
+    if (values.redis === undefined && values.namespace !== undefined) throw new InputError("nightshift run --namespace", "only means something with --redis");
     return runAndReport({
       planPath: positionals[0],
       runDir: values["run-dir"],
@@ -112,6 +127,10 @@ export const runVerb: Verb = {
       json: values.json ?? false,
       quiet: values.quiet ?? false,
       top: positiveInteger("run", "top", values.top),
+      redis:
+        values.redis === undefined
+          ? undefined
+          : { endpoint: redisEndpoint(values.redis, "nightshift run --redis"), namespace: checkNamespace(values.namespace ?? DEFAULT_NAMESPACE, "nightshift run --namespace") },
     });
   },
 };

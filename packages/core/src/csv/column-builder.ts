@@ -1,5 +1,6 @@
 import { MISSING_CODE } from "../frame.js";
 import { GrowableArray } from "./growable-array.js";
+import { detachField } from "./csv-records.js";
 import { isMissingSpelling, parseNumericField, trimField } from "./field-values.js";
 
 /**
@@ -157,7 +158,7 @@ export class ColumnBuilder {
       this.pushNumber(value, text);
     } else {
       this.state = ColumnState.Text;
-      this.firstText = { line, value: text };
+      this.firstText = { line, value: detachField(text) };
       this.codes = this.newCodes(this.leadingMissing + 1);
       this.codes.pushRepeated(MISSING_CODE, this.leadingMissing);
       this.pushText(text);
@@ -174,7 +175,7 @@ export class ColumnBuilder {
       const key = this.wide ? value : Math.fround(value);
       if (!spellings.has(key)) {
         if (spellings.size >= SPELLING_MEMORY) this.spellings = null;
-        else spellings.set(key, text);
+        else spellings.set(key, detachField(text));
       }
     }
   }
@@ -183,14 +184,15 @@ export class ColumnBuilder {
     let code = this.dictionary.get(text);
     if (code === undefined) {
       code = this.vocabulary.length;
-      this.dictionary.set(text, code);
-      this.vocabulary.push(text);
+      const category = detachField(text);
+      this.dictionary.set(category, code);
+      this.vocabulary.push(category);
     }
     this.codes!.push(code);
   }
 
   private turnToText(text: string, line: number): void {
-    this.firstText = { line, value: text };
+    this.firstText = { line, value: detachField(text) };
     const spellings = this.spellings;
     const numbers = this.numbers!;
     this.numbers = null;

@@ -3,11 +3,11 @@ import type { FeatureColumn } from "../frame.js";
 import { MISSING_CODE } from "../frame.js";
 import type { ColumnSchema } from "../dataset/dataset.js";
 import { GrowableArray } from "./growable-array.js";
-import type { ParsePosition } from "./csv-errors.js";
 import { isMissingSpelling, parseBooleanField, parseNumericField, trimField } from "./field-values.js";
 import { listNames } from "./infer-types.js";
-import { countLineEnds, inspectFile, parseRecords, streamRecords } from "./read-csv.js";
-import { sniffDelimiter } from "./sniff-delimiter.js";
+import { parseRecords, streamRecords } from "./csv-records.js";
+import { countLineEnds, inspectFile } from "./read-csv.js";
+import { sniffDialect } from "./sniff-delimiter.js";
 
 /** New rows read for prediction, coded the way the training rows were. */
 export interface PredictionRows {
@@ -29,9 +29,9 @@ export interface ReadRowsOptions {
  * missing and is counted in `unseen`.
  */
 export async function readCsvRows(path: string, schema: readonly ColumnSchema[], options: ReadRowsOptions = {}): Promise<PredictionRows> {
-  const { delimiter, expectedRows } = await inspectFile(path);
+  const { dialect, expectedRows } = await inspectFile(path);
   const reader = new RowsReader(path, schema, options, expectedRows);
-  await streamRecords(path, delimiter, reader, reader.onRecord);
+  await streamRecords(path, dialect, reader.onRecord);
   return reader.finish();
 }
 
@@ -39,7 +39,7 @@ export async function readCsvRows(path: string, schema: readonly ColumnSchema[],
 export function parseCsvRows(text: string, source: string, schema: readonly ColumnSchema[], options: ReadRowsOptions = {}): PredictionRows {
   if (text.length === 0) throw new InputError(source, "the file is empty");
   const reader = new RowsReader(source, schema, options, countLineEnds(text));
-  parseRecords(text, source, sniffDelimiter(text), reader, reader.onRecord);
+  parseRecords(text, source, sniffDialect(text), reader.onRecord);
   return reader.finish();
 }
 
@@ -47,7 +47,7 @@ const NUMERIC = 0;
 const BOOLEAN = 1;
 const CATEGORICAL = 2;
 
-class RowsReader implements ParsePosition {
+class RowsReader {
   headerFields = 0;
   lastLine = 0;
   rows = 0;

@@ -28,13 +28,46 @@ export function sniffDelimiter(start: string): Delimiter {
   return CANDIDATES[best];
 }
 
-/** True once `start` holds the whole header line (a line end outside quotes). */
+/** The line ends nightshift recognises. */
+export type LineEnd = "\n" | "\r\n" | "\r";
+
+/** How a CSV file is written, as its header line tells. */
+export interface Dialect {
+  readonly delimiter: Delimiter;
+  readonly lineEnd: LineEnd;
+}
+
+/**
+ * The delimiter (see sniffDelimiter) and the line end of a CSV file: the one that ends the header
+ * line, LF when there is none. `start` must hold the header line's end, the character after a CR
+ * included (see holdsHeaderLine).
+ */
+export function sniffDialect(start: string): Dialect {
+  return { delimiter: sniffDelimiter(start), lineEnd: sniffLineEnd(start) };
+}
+
+function sniffLineEnd(start: string): LineEnd {
+  const end = headerLineEnd(start);
+  if (end < 0 || start[end] === "\n") return "\n";
+  return start[end + 1] === "\n" ? "\r\n" : "\r";
+}
+
+/**
+ * True once `start` holds the whole header line: a line end outside quotes, and after a CR the
+ * next character, which tells CR from CRLF.
+ */
 export function holdsHeaderLine(start: string): boolean {
+  const end = headerLineEnd(start);
+  return end >= 0 && (start[end] === "\n" || end + 1 < start.length);
+}
+
+/** Index of the first line end outside quotes, or -1. */
+function headerLineEnd(start: string): number {
   let inQuotes = false;
   for (let i = 0; i < start.length; i++) {
     const char = start[i];
     if (char === '"') inQuotes = !inQuotes;
-    else if (!inQuotes && (char === "\n" || char === "\r")) return true;
+    else if (!inQuotes && (char === "\n" || char === "\r")) return i;
   }
-  return false;
+  return -1;
 }

@@ -3,7 +3,7 @@ import type { FeatureColumn } from "../frame.js";
 import type { DatasetContent } from "../dataset/dataset.js";
 import type { Task } from "../task.js";
 import { ColumnBuilder, ColumnState } from "./column-builder.js";
-import type { ParsePosition } from "./csv-errors.js";
+import { detachField } from "./csv-records.js";
 import { finishFeature, finishTarget, listNames, targetPresence } from "./infer-types.js";
 
 /** What to read from a CSV file for training. */
@@ -30,7 +30,7 @@ export interface IngestOptions {
  * record's fields go to their column builders. A table can also re-read a chosen set of
  * columns as text (the second pass for columns whose type changed late).
  */
-export class TableBuilder implements ParsePosition {
+export class TableBuilder {
   headerFields = 0;
   lastLine = 0;
   rows = 0;
@@ -99,7 +99,7 @@ export class TableBuilder implements ParsePosition {
   }
 
   private readHeader(record: string[], line: number): void {
-    const names = record.map((field, i) => field.trim() || `column_${i + 1}`);
+    const names = record.map((field, i) => detachField(field.trim()) || `column_${i + 1}`);
     const seen = new Map<string, number>();
     names.forEach((name, i) => {
       const earlier = seen.get(name);

@@ -41,8 +41,8 @@ export const RefitJobSchema = z.strictObject({
 });
 export type RefitJob = z.infer<typeof RefitJobSchema>;
 
-/** Any job a worker accepts; a worker dispatches on `kind`. */
-export const JobSchema = z.union([FoldJobSchema, RefitJobSchema]);
+/** Any job a worker accepts; a worker dispatches on `kind` (a job's problems are reported against the schema its kind names). */
+export const JobSchema = z.discriminatedUnion("kind", [FoldJobSchema, RefitJobSchema]);
 export type Job = z.infer<typeof JobSchema>;
 
 export function isRefitJob(job: Job): job is RefitJob {

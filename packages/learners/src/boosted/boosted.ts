@@ -1,8 +1,9 @@
 import type { Rng, TableView, Task, TrainView } from "@nightshift/core";
-import { type BinMapper, binRows, fitBinMapper } from "../binning/bin-mapper.js";
-import { FitError, type Learner } from "../learner.js";
+import { type BinMapper, binCount, fitBinMapper } from "../binning/bin-mapper.js";
+import { type FitContext, FitError, type Learner } from "../learner.js";
+import { binTrainingRows } from "./bin-search.js";
 import { TreeGrower } from "./grow-tree.js";
-import { histogramIndex, histogramLayout } from "./histogram.js";
+import { histogramLayout, rowMajorBins } from "./histogram.js";
 import { boostedFromJSON, boostedToJSON } from "./model-json.js";
 import { binaryLogLoss, type Objective, softmaxLoss, squaredError } from "./objectives.js";
 import { type BoostedParams, BoostedParamsSchema } from "./params.js";
@@ -31,7 +32,7 @@ export interface BoostedModel {
 /** Relative improvement of the validation loss that counts as progress for early stopping. */
 const IMPROVEMENT = 1e-7;
 
-export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): BoostedModel {
+export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng, context?: FitContext): BoostedModel {
   const n = view.rows.length;
   if (n < 2) throw new FitError("boosted", `needs at least 2 training rows (got ${n})`);
   const target = view.target;
@@ -61,18 +62,16 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
   }
 
   const classSizes = new Float64Array(classCount);
-  if (classes !== null) {
+  let present = 0;
+  if (classes !== null && target.kind === "classes") {
     for (let i = 0; i < n; i++) classSizes[classes[i]]++;
-    const present = classSizes.reduce((count, size) => count + (size > 0 ? 1 : 0), 0);
-    if (present < 2 && target.kind === "classes") {
-      throw new FitError("boosted", `the training rows hold only one class (${target.labels[classes[0]]}); at least two are needed`);
-    }
+    present = classSizes.reduce((count, size) => count + (size > 0 ? 1 : 0), 0);
+    if (present < 2) throw new FitError("boosted", `the training rows hold only one class (${target.labels[classes[0]]}); at least two are needed`);
   }
 
   // METHODS.md §9: balanced weights n / (C · n_c) over the classes present.
   let weights: Float64Array | null = null;
   if (classes !== null && params.class_weight === "balanced") {
-    const present = classSizes.reduce((count, size) => count + (size > 0 ? 1 : 0), 0);
     weights = new Float64Array(n);
     for (let i = 0; i < n; i++) weights[i] = n / (present * classSizes[classes[i]]);
   }
@@ -84,20 +83,25 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
   // Bins are placed on the fitting rows only; every training position is then binned with them.
   const fitRows = new Uint32Array(fitPositions.length);
   for (let i = 0; i < fitPositions.length; i++) fitRows[i] = view.rows[fitPositions[i]];
-  const mapper = fitBinMapper({ columns: view.columns, rows: fitRows }, params.bins, rng);
-  const binned = binRows(mapper, view);
-  const valueBins = binned.binCounts;
-  const features = binned.bins.length;
-  const categorical = new Uint8Array(features);
-  const usable: number[] = [];
-  for (let f = 0; f < features; f++) {
-    categorical[f] = binned.categorical[f] ? 1 : 0;
-    // Local bins: the missing values of feature f go to bin valueBins[f], right after its value bins.
-    const column = binned.bins[f];
-    const missing = valueBins[f];
-    for (let i = 0; i < n; i++) if (column[i] > missing) column[i] = missing;
-    if (takesTwoBins(column, fitPositions)) usable.push(f);
+  // Bins depend on the fitting rows alone (never on rng), so without an early-stopping slice the
+  // fold's bins are shared through the worker's memo by every boosted fit on that fold.
+  const computeBins = () => {
+    const fitted = fitBinMapper({ columns: view.columns, rows: fitRows }, params.bins);
+    const counts = Uint16Array.from(fitted.features, binCount);
+    // Local bins: the missing values of feature f go to bin counts[f], right after its value bins.
+    return { mapper: fitted, valueBins: counts, columnBins: binTrainingRows(fitted, view, counts) };
+  };
+  const memoKey = context && validation === null ? `${context.key}:boosted-bins:${params.bins}:${n}` : null;
+  let binning = memoKey ? (context?.memo.get(memoKey) as ReturnType<typeof computeBins> | undefined) : undefined;
+  if (!binning) {
+    binning = computeBins();
+    if (memoKey) context?.memo.set(memoKey, binning);
   }
+  const { mapper, valueBins, columnBins } = binning;
+  const features = mapper.features.length;
+  const categorical = Uint8Array.from(mapper.features, (bins) => (bins.kind === "categorical" ? 1 : 0));
+  const usable: number[] = [];
+  for (let f = 0; f < features; f++) if (takesTwoBins(columnBins[f], fitPositions)) usable.push(f);
   if (usable.length === 0) throw new FitError("boosted", "no usable feature: every feature is constant or missing on the training rows");
 
   const objective: Objective =
@@ -115,7 +119,7 @@ export function fitBoosted(view: TrainView, params: BoostedParams, rng: Rng): Bo
 
   const layout = histogramLayout(valueBins);
   const grower = new TreeGrower(
-    { columnBins: binned.bins, histogramIndex: histogramIndex(layout, binned.bins, n), layout, categorical, rowCount: n },
+    { columnBins, rowBins: rowMajorBins(columnBins, n), layout, categorical, rowCount: n },
     {
       maxLeaves: params.leaves,
       maxDepth: params.depth ?? Infinity,

@@ -7,11 +7,11 @@ export const HISTOGRAM_POOL_BYTES = 256 * 1024 * 1024;
 /**
  * Training rows binned for growing. `columnBins[f][r]` is the local bin of position r on feature
  * f (missing values in bin valueBins[f]), read when partitioning a node on one feature;
- * `histogramIndex` is the same information laid out for building histograms (histogram.ts).
+ * `rowBins` holds the same bins row by row, read when building histograms.
  */
 export interface GrowingData {
   readonly columnBins: readonly Uint8Array[];
-  readonly histogramIndex: Uint16Array | Uint32Array;
+  readonly rowBins: Uint8Array;
   readonly layout: HistogramLayout;
   readonly categorical: Uint8Array;
   readonly rowCount: number;
@@ -295,7 +295,7 @@ export class TreeGrower {
       this.pool,
       slot * data.layout.length,
       data.layout,
-      data.histogramIndex,
+      data.rowBins,
       features,
       featureCount,
       this.rows,

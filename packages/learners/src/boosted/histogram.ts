@@ -25,26 +25,24 @@ export function histogramLayout(valueBins: Uint16Array): HistogramLayout {
 }
 
 /**
- * Where each (row, feature) lands in a histogram: `index[r * features + f]` is the number of its
- * (Σg, Σh, count) triple, i.e. offset[f] / 3 + local bin. Row-major, so a row's entries share a
- * cache line; 16-bit when every triple number fits (up to about 256 features of 255 bins).
+ * The bins of every position, row-major: `rowBins[r * features + f]` is the local bin of row r
+ * on feature f, so one row's bins share a cache line when its histogram entries are added.
  */
-export function histogramIndex(layout: HistogramLayout, columnBins: readonly Uint8Array[], rowCount: number): Uint16Array | Uint32Array {
-  const width = layout.features;
-  const index = layout.length / 3 <= 0xffff ? new Uint16Array(rowCount * width) : new Uint32Array(rowCount * width);
+export function rowMajorBins(columnBins: readonly Uint8Array[], rowCount: number): Uint8Array {
+  const width = columnBins.length;
+  const rowBins = new Uint8Array(rowCount * width);
   for (let f = 0; f < width; f++) {
     const column = columnBins[f];
-    const first = layout.offset[f] / 3;
-    for (let r = 0; r < rowCount; r++) index[r * width + f] = first + column[r];
+    for (let r = 0; r < rowCount; r++) rowBins[r * width + f] = column[r];
   }
-  return index;
+  return rowBins;
 }
 
 /**
  * Accumulates the histogram of rows `rows[start..end)` over the listed features into
- * `hist[base ..]`. Row by row: each row's gradient pair is read once and its histogram entries
- * come from one cache line of `index`, which measured faster here than per-feature passes over
- * gathered gradients; four rows per step keep four independent chains of updates in flight.
+ * `hist[base ..]`. Row by row: each row's gradient pair is read once and its bins come from one
+ * cache line, which measured faster here than per-feature passes over gathered gradients; four
+ * rows per step keep four independent chains of updates in flight.
  *
  * Row counts cost a third of the updates, so they are kept only when asked (`counts`). With a
  * constant hessian of 1 (squared error) Σh is the count, and it is copied into the count slot.
@@ -53,7 +51,7 @@ export function buildHistogram(
   hist: Float64Array,
   base: number,
   layout: HistogramLayout,
-  index: Uint16Array | Uint32Array,
+  rowBins: Uint8Array,
   features: Int32Array,
   featureCount: number,
   rows: Uint32Array,
@@ -70,8 +68,8 @@ export function buildHistogram(
     const from = base + offset[features[j]];
     hist.fill(0, from, from + 3 * (valueBins[features[j]] + 1));
   }
-  if (counts && !constantHessian) accumulateWithCounts(hist, base, layout.features, index, features, featureCount, rows, start, end, grad, hess);
-  else accumulate(hist, base, layout.features, index, features, featureCount, rows, start, end, grad, hess);
+  if (counts && !constantHessian) accumulateWithCounts(hist, base, layout, rowBins, features, featureCount, rows, start, end, grad, hess);
+  else accumulate(hist, base, layout, rowBins, features, featureCount, rows, start, end, grad, hess);
   if (constantHessian) {
     for (let j = 0; j < featureCount; j++) {
       const from = base + offset[features[j]];
@@ -85,8 +83,8 @@ export function buildHistogram(
 function accumulate(
   hist: Float64Array,
   base: number,
-  width: number,
-  index: Uint16Array | Uint32Array,
+  layout: HistogramLayout,
+  rowBins: Uint8Array,
   features: Int32Array,
   featureCount: number,
   rows: Uint32Array,
@@ -95,6 +93,8 @@ function accumulate(
   grad: Float64Array,
   hess: Float64Array,
 ): void {
+  const width = layout.features;
+  const offset = layout.offset;
   const all = featureCount === width;
   let i = start;
   for (; i + 3 < end; i += 4) {
@@ -116,16 +116,17 @@ function accumulate(
     const b3 = r3 * width;
     for (let j = 0; j < featureCount; j++) {
       const f = all ? j : features[j];
-      let at = base + 3 * index[b0 + f];
+      const from = base + offset[f];
+      let at = from + 3 * rowBins[b0 + f];
       hist[at] += g0;
       hist[at + 1] += h0;
-      at = base + 3 * index[b1 + f];
+      at = from + 3 * rowBins[b1 + f];
       hist[at] += g1;
       hist[at + 1] += h1;
-      at = base + 3 * index[b2 + f];
+      at = from + 3 * rowBins[b2 + f];
       hist[at] += g2;
       hist[at + 1] += h2;
-      at = base + 3 * index[b3 + f];
+      at = from + 3 * rowBins[b3 + f];
       hist[at] += g3;
       hist[at + 1] += h3;
     }
@@ -134,7 +135,8 @@ function accumulate(
     const r = rows[i];
     const b = r * width;
     for (let j = 0; j < featureCount; j++) {
-      const at = base + 3 * index[b + features[j]];
+      const f = features[j];
+      const at = base + offset[f] + 3 * rowBins[b + f];
       hist[at] += grad[r];
       hist[at + 1] += hess[r];
     }
@@ -145,8 +147,8 @@ function accumulate(
 function accumulateWithCounts(
   hist: Float64Array,
   base: number,
-  width: number,
-  index: Uint16Array | Uint32Array,
+  layout: HistogramLayout,
+  rowBins: Uint8Array,
   features: Int32Array,
   featureCount: number,
   rows: Uint32Array,
@@ -155,6 +157,8 @@ function accumulateWithCounts(
   grad: Float64Array,
   hess: Float64Array,
 ): void {
+  const width = layout.features;
+  const offset = layout.offset;
   const all = featureCount === width;
   let i = start;
   for (; i + 3 < end; i += 4) {
@@ -176,19 +180,20 @@ function accumulateWithCounts(
     const b3 = r3 * width;
     for (let j = 0; j < featureCount; j++) {
       const f = all ? j : features[j];
-      let at = base + 3 * index[b0 + f];
+      const from = base + offset[f];
+      let at = from + 3 * rowBins[b0 + f];
       hist[at] += g0;
       hist[at + 1] += h0;
       hist[at + 2] += 1;
-      at = base + 3 * index[b1 + f];
+      at = from + 3 * rowBins[b1 + f];
       hist[at] += g1;
       hist[at + 1] += h1;
       hist[at + 2] += 1;
-      at = base + 3 * index[b2 + f];
+      at = from + 3 * rowBins[b2 + f];
       hist[at] += g2;
       hist[at + 1] += h2;
       hist[at + 2] += 1;
-      at = base + 3 * index[b3 + f];
+      at = from + 3 * rowBins[b3 + f];
       hist[at] += g3;
       hist[at + 1] += h3;
       hist[at + 2] += 1;
@@ -198,7 +203,8 @@ function accumulateWithCounts(
     const r = rows[i];
     const b = r * width;
     for (let j = 0; j < featureCount; j++) {
-      const at = base + 3 * index[b + features[j]];
+      const f = features[j];
+      const at = base + offset[f] + 3 * rowBins[b + f];
       hist[at] += grad[r];
       hist[at + 1] += hess[r];
       hist[at + 2] += 1;

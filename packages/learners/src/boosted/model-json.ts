@@ -107,7 +107,8 @@ export function boostedFromJSON(json: ModelJson): BoostedModel {
     value: decode(t.value, (b) => new Float64Array(b), 8, "value"),
     bits: decode(t.bits, (b) => new Uint32Array(b), 4, "bits"),
   };
-  checkTrees(trees, mapper, data.outputs, data.init.length, data.labels);
+  checkShape(data.task, data.labels, data.outputs, data.init.length, data.feature_names.length, mapper, trees.treeCount);
+  checkTrees(trees, mapper);
   return {
     task: data.task,
     labels: data.labels,
@@ -124,13 +125,31 @@ export function boostedFromJSON(json: ModelJson): BoostedModel {
   };
 }
 
-/** A model read from a file must describe trees that prediction can walk safely. */
-function checkTrees(trees: TreeEnsemble, mapper: BinMapper, outputs: number, initLength: number, labels: readonly string[] | null): void {
-  const fail = (key: string, message: string): never => {
-    throw new InputError(`boosted model ${key}`, message);
-  };
+function fail(key: string, message: string): never {
+  throw new InputError(`boosted model ${key}`, message);
+}
+
+/** Task, labels, outputs and sizes must agree with each other. */
+function checkShape(
+  task: string,
+  labels: readonly string[] | null,
+  outputs: number,
+  initLength: number,
+  featureNames: number,
+  mapper: BinMapper,
+  treeCount: number,
+): void {
+  if (task === "regression" ? labels !== null : labels === null) fail("labels", `must be ${task === "regression" ? "null" : "given"} for a ${task} task`);
+  const expected = task === "multiclass" ? (labels?.length ?? 0) : 1;
+  if (outputs !== expected) fail("outputs", `must be ${expected} for a ${task} task (got ${outputs})`);
+  if (task === "binary" && labels?.length !== 2) fail("labels", "a binary task needs 2 labels");
   if (initLength !== outputs) fail("init", `needs ${outputs} values (got ${initLength})`);
-  if (labels !== null && outputs !== 1 && outputs !== labels.length) fail("outputs", `must be 1 or the class count ${labels.length}`);
+  if (featureNames !== mapper.features.length) fail("feature_names", `needs one name per feature of the mapper (${mapper.features.length})`);
+  if (treeCount % outputs !== 0) fail("trees.count", `must be a multiple of ${outputs} (one tree per output per round)`);
+}
+
+/** A model read from a file must describe trees that prediction can walk safely. */
+function checkTrees(trees: TreeEnsemble, mapper: BinMapper): void {
   if (trees.treeStart.length !== trees.treeCount + 1 || trees.treeStart[0] !== 0) fail("trees.start", "does not match the tree count");
   const nodes = trees.feature.length;
   if (trees.treeStart[trees.treeCount] !== nodes) fail("trees.start", "does not end at the node count");

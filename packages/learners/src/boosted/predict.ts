@@ -1,5 +1,6 @@
 import type { TableView } from "@nightshift/core";
 import { type BinMapper, MISSING_BIN } from "../binning/bin-mapper.js";
+import { binOf, paddedEdges } from "./bin-search.js";
 import { BITSET_WORDS } from "./split-gain.js";
 import type { TreeEnsemble } from "./tree-ensemble.js";
 
@@ -33,6 +34,8 @@ export interface CompiledTrees {
   readonly hasCategorical: boolean;
   /** Per numeric feature, its 255 upper edges padded with +∞ to 256 (branch-free binning). */
   readonly edges: Float64Array;
+  /** Per bin column (2·features), 1 when some node reads it; other columns are not filled. */
+  readonly columnUsed: Uint8Array;
 }
 
 const CATEGORICAL_FLAG = 1 << 24;
@@ -46,6 +49,7 @@ export function compileTrees(trees: TreeEnsemble, mapper: BinMapper): CompiledTr
   const depth = new Int32Array(trees.treeCount);
   const nodeDepth = new Int32Array(nodes);
   const bits = trees.bits.slice();
+  const columnUsed = new Uint8Array(2 * features);
   let hasCategorical = false;
   for (let t = 0; t < trees.treeCount; t++) {
     const start = trees.treeStart[t];
@@ -74,13 +78,11 @@ export function compileTrees(trees: TreeEnsemble, mapper: BinMapper): CompiledTr
         const threshold = trees.threshold[n];
         node[2 * n] = missingLeft ? (features + f) | ((threshold + 1) << 16) : f | (threshold << 16);
       }
+      columnUsed[node[2 * n] & 0xffff] = 1;
     }
   }
-  const edges = new Float64Array(256 * features).fill(Infinity);
-  mapper.features.forEach((bins, f) => {
-    if (bins.kind === "numeric") edges.set(bins.upperEdges, 256 * f);
-  });
-  return { treeCount: trees.treeCount, features, root, depth, node, value: trees.value, set: trees.set, bits, hasCategorical, edges };
+  const edges = paddedEdges(mapper);
+  return { treeCount: trees.treeCount, features, root, depth, node, value: trees.value, set: trees.set, bits, hasCategorical, edges, columnUsed };
 }
 
 /** Rows per block: the block's bins (2 bytes per feature) stay in cache while every tree visits them. */
@@ -94,6 +96,12 @@ const BLOCK_ROWS = 512;
 export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: TableView, outputs: number, raw: Float64Array): void {
   const n = view.rows.length;
   const features = compiled.features;
+  mapper.features.forEach((bins, f) => {
+    const column = view.columns[f];
+    if ((column.kind === "categorical") !== (bins.kind === "categorical")) {
+      throw new TypeError(`feature ${column.name}: fitted as ${bins.kind}, given ${column.kind === "categorical" ? "categorical" : "numeric"}`);
+    }
+  });
   const block = new Uint8Array(BLOCK_ROWS * 2 * features);
   for (let first = 0; first < n; first += BLOCK_ROWS) {
     const count = Math.min(BLOCK_ROWS, n - first);
@@ -103,11 +111,7 @@ export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: 
   }
 }
 
-/**
- * Bins rows first..first+count-1 of the view into the block (both encodings, see CompiledTrees).
- * Numeric bin = number of upper edges below the value (the first bin whose edge is >= it, as
- * the training mapper assigns), found by a branch-free binary search over 256 padded edges.
- */
+/** Bins rows first..first+count-1 of the view into the block (both encodings, see CompiledTrees). */
 function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, first: number, count: number, block: Uint8Array): void {
   const features = compiled.features;
   const stride = 2 * features;
@@ -116,8 +120,9 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
   for (let f = 0; f < features; f++) {
     const column = view.columns[f];
     const bins = mapper.features[f];
-    if (column.kind === "categorical") {
-      if (bins.kind !== "categorical") throw new TypeError(`feature ${column.name}: fitted as numeric, given categorical`);
+    // Columns no node reads stay unfilled (a leaf's test is false for any byte).
+    if (compiled.columnUsed[f] === 0 && compiled.columnUsed[features + f] === 0) continue;
+    if (column.kind === "categorical" && bins.kind === "categorical") {
       const binOfCode = bins.binOfCode;
       const codes = column.codes;
       for (let r = 0; r < count; r++) {
@@ -126,24 +131,14 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
         block[r * stride + f] = b;
         block[r * stride + features + f] = b + 1;
       }
-    } else {
-      if (bins.kind !== "numeric") throw new TypeError(`feature ${column.name}: fitted as categorical, given numeric`);
+    } else if (column.kind !== "categorical") {
       const values = column.values;
       const e = 256 * f;
       for (let r = 0; r < count; r++) {
-        const v = values[rows[first + r]];
-        let b = +(edges[e + 127] < v) << 7;
-        b += +(edges[e + b + 63] < v) << 6;
-        b += +(edges[e + b + 31] < v) << 5;
-        b += +(edges[e + b + 15] < v) << 4;
-        b += +(edges[e + b + 7] < v) << 3;
-        b += +(edges[e + b + 3] < v) << 2;
-        b += +(edges[e + b + 1] < v) << 1;
-        b += +(edges[e + b] < v);
-        // NaN fails every comparison (b = 0); it becomes the missing bin.
-        const missing = +(v !== v);
-        block[r * stride + f] = b | (missing * MISSING_BIN);
-        block[r * stride + features + f] = (b + 1) & (missing - 1);
+        const b = binOf(edges, e, values[rows[first + r]]);
+        block[r * stride + f] = b;
+        // b + 1, and 0 for the missing bin (255 + 1 wraps in a byte).
+        block[r * stride + features + f] = b + 1;
       }
     }
   }

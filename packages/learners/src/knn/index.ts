@@ -1,4 +1,3 @@
 export * from "./knn-learner.js";
-export * from "./neighbour-search.js";
+export { nearestNeighbours, screeningMargin, type Neighbours } from "./neighbour-search.js";
 export * from "./params.js";
-export * from "./screening-kernel.js";

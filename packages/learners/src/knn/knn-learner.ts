@@ -1,7 +1,8 @@
+import type { FitContext } from "../learner.js";
 import { InputError, type Rng, type TableView, type Task, TaskSchema, type TrainView } from "@nightshift/core";
 import { z } from "zod";
 import { FitError, type Learner, type ModelJson } from "../learner.js";
-import { designMatrix, DesignEncodingSchema, fitDesign, type DesignEncoding } from "../preprocess/design-matrix.js";
+import { designMatrix, DesignEncodingSchema, type DesignEncoding, trainingDesign } from "../preprocess/design-matrix.js";
 import { float64FromBase64, int32FromBase64, typedArrayToBase64 } from "../typed-array-base64.js";
 import { nearestNeighbours } from "./neighbour-search.js";
 import { KnnParamsSchema, type KnnParams } from "./params.js";
@@ -43,8 +44,8 @@ const KnnModelJsonSchema = z
   })
   .strict();
 
-export function fitKnn(view: TrainView, params: KnnParams): KnnModel {
-  const encoding = fitDesign(view, { missingIndicators: params.missing_indicators });
+export function fitKnn(view: TrainView, params: KnnParams, context?: FitContext): KnnModel {
+  const encoding = trainingDesign(view, { missingIndicators: params.missing_indicators }, context);
   if (encoding.width === 0) throw new FitError("knn", "no usable feature: every feature column is constant or missing in the training rows");
   const n = view.rows.length;
   const target = view.target;
@@ -155,7 +156,7 @@ export function knnModelFromJSON(json: ModelJson): KnnModel {
 export const knnLearner: Learner<KnnParams, KnnModel> = {
   family: "knn",
   params: KnnParamsSchema,
-  fit: (view: TrainView, params: KnnParams, _rng: Rng) => fitKnn(view, params),
+  fit: (view: TrainView, params: KnnParams, _rng: Rng, context?: FitContext) => fitKnn(view, params, context),
   predict: predictKnn,
   toJSON: knnModelToJSON,
   fromJSON: knnModelFromJSON,

@@ -1,3 +1,4 @@
+import { WASM_MEMORY_LIMIT } from "../wasm/encoder.js";
 import { createScreeningKernel, PANEL_ROWS, QUERY_BLOCK, RECORD_BYTES } from "./screening-kernel.js";
 
 /**
@@ -57,8 +58,7 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
 
   const margin = screeningMargin(p);
   const panelCount = Math.ceil(n / PANEL_ROWS);
-  const padded = p;
-  const tilePanels = Math.max(1, Math.floor(TILE_BYTES / (padded * 4 * PANEL_ROWS)));
+  const tilePanels = Math.max(1, Math.floor(TILE_BYTES / (p * 4 * PANEL_ROWS)));
   const chunk = Math.min(QUERY_CHUNK, roundUp(m, QUERY_BLOCK));
 
   let bytes = 0;
@@ -67,13 +67,15 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
     bytes += roundUp(size, 16);
     return at;
   };
-  const panelsAt = take(panelCount * padded * PANEL_ROWS * 4);
+  const panelsAt = take(panelCount * p * PANEL_ROWS * 4);
   const panelNormsAt = take(panelCount * PANEL_ROWS * 4);
-  const queryBlocksAt = take(chunk * padded * 4);
+  const queryBlocksAt = take(chunk * p * 4);
   const queryNormsAt = take(chunk * 4);
   const thresholdsAt = take(chunk * 4);
   // Worst case: every query of the chunk flags every panel of a tile.
   const recordsAt = take(chunk * tilePanels * RECORD_BYTES);
+  if (bytes > WASM_MEMORY_LIMIT)
+    throw new RangeError(`knn: ${n} training rows × ${p} design columns need ${(bytes / 2 ** 30).toFixed(1)} GiB of single-precision panels, beyond the 4 GiB of a WebAssembly memory`);
   const kernel = createScreeningKernel(bytes);
   const f32 = new Float32Array(kernel.memory.buffer);
   const i32 = new Int32Array(kernel.memory.buffer);
@@ -81,11 +83,11 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
   // Training panels and their norms, each lowered by its share of the rounding margin.
   let trainTooLarge = false;
   for (let panel = 0; panel < panelCount; panel++) {
-    const base = (panelsAt >> 2) + panel * padded * PANEL_ROWS;
+    const base = (panelsAt / 4) + panel * p * PANEL_ROWS;
     for (let lane = 0; lane < PANEL_ROWS; lane++) {
       const row = panel * PANEL_ROWS + lane;
       if (row >= n) {
-        f32[(panelNormsAt >> 2) + row] = NaN;
+        f32[(panelNormsAt / 4) + row] = NaN;
         continue;
       }
       let norm = 0;
@@ -95,7 +97,7 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
         norm += v * v;
       }
       if (!(norm <= SINGLE_PRECISION_LIMIT)) trainTooLarge = true;
-      f32[(panelNormsAt >> 2) + row] = lowered(norm * (1 - margin));
+      f32[(panelNormsAt / 4) + row] = lowered(norm * (1 - margin));
     }
   }
 
@@ -104,14 +106,15 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
   const heapSizes = new Int32Array(chunk);
   const queryNorms = new Float64Array(chunk);
   const exactOnly = new Uint8Array(chunk);
-  const thresholds = (thresholdsAt >> 2);
+  // Offsets are multiples of 16 bytes; words are indexed by offset / 4 (not >> 2, which breaks past 2 GiB).
+  const thresholds = thresholdsAt / 4;
 
   for (let first = 0; first < m; first += chunk) {
     const count = Math.min(chunk, m - first);
     const blocks = Math.ceil(count / QUERY_BLOCK);
     for (let local = 0; local < blocks * QUERY_BLOCK; local++) {
       const q = first + local;
-      const base = (queryBlocksAt >> 2) + Math.floor(local / QUERY_BLOCK) * padded * QUERY_BLOCK + (local % QUERY_BLOCK);
+      const base = (queryBlocksAt / 4) + Math.floor(local / QUERY_BLOCK) * p * QUERY_BLOCK + (local % QUERY_BLOCK);
       let norm = 0;
       for (let j = 0; j < p; j++) {
         const v = q < m ? queries[q * p + j] : 0;
@@ -122,7 +125,7 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
       exactOnly[local] = present && (trainTooLarge || !(norm <= SINGLE_PRECISION_LIMIT)) ? 1 : 0;
       queryNorms[local] = norm;
       // A NaN norm or threshold never passes the screen: padding, and queries measured exactly below.
-      f32[(queryNormsAt >> 2) + local] = present && !exactOnly[local] ? norm : NaN;
+      f32[(queryNormsAt / 4) + local] = present && !exactOnly[local] ? norm : NaN;
       f32[thresholds + local] = present && !exactOnly[local] ? Infinity : NaN;
     }
     heapSizes.fill(0);
@@ -142,14 +145,14 @@ export function nearestNeighbours(train: Float64Array, n: number, queries: Float
         queryBlockCount: blocks,
         queryNorms: queryNormsAt,
         thresholds: thresholdsAt,
-        panels: panelsAt + panel * padded * PANEL_ROWS * 4,
+        panels: panelsAt + panel * p * PANEL_ROWS * 4,
         panelCount: Math.min(tile, panelCount - panel),
         panelNorms: panelNormsAt + panel * PANEL_ROWS * 4,
-        features: padded,
+        features: p,
         firstPanel: panel,
         records: recordsAt,
       });
-      for (let r = 0, at = recordsAt >> 2; r < records; r++, at += 3) {
+      for (let r = 0, at = recordsAt / 4; r < records; r++, at += 3) {
         const local = i32[at];
         const base = i32[at + 1] * PANEL_ROWS;
         const mask = i32[at + 2];
@@ -216,7 +219,7 @@ function siftDown(distances: Float64Array, rows: Int32Array, base: number, size:
 }
 
 /** Offers (d, row) to the max-heap at `base` holding `size` of at most `k` entries; returns the new size. */
-export function heapOffer(distances: Float64Array, rows: Int32Array, base: number, size: number, k: number, d: number, row: number): number {
+function heapOffer(distances: Float64Array, rows: Int32Array, base: number, size: number, k: number, d: number, row: number): number {
   if (size < k) {
     let i = size;
     distances[base + i] = d;

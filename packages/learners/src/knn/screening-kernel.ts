@@ -53,7 +53,7 @@ export function createScreeningKernel(bytes: number): ScreeningKernel {
   return {
     memory,
     screen: (c) =>
-      (run(c.queryBlocks, c.queryBlockCount, c.queryNorms, c.thresholds, c.panels, c.panelCount, c.panelNorms, c.features, c.firstPanel, c.records) - c.records) /
+      ((run(c.queryBlocks, c.queryBlockCount, c.queryNorms, c.thresholds, c.panels, c.panelCount, c.panelNorms, c.features, c.firstPanel, c.records) >>> 0) - c.records) /
       RECORD_BYTES,
   };
 }

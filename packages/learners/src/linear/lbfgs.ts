@@ -89,6 +89,7 @@ export function minimizeLbfgs(objective: LineObjective, x0: Float64Array, option
     const initialStep = stored === 0 ? Math.min(1, 1 / Math.sqrt(dot(gradient, gradient))) : 1;
     const search = strongWolfeSearch(objective.along(direction), { value, slope }, initialStep);
     evaluations += search.evaluations;
+    // No step decreases f: at this precision the point cannot be improved.
     if (search.step === 0) break;
 
     for (let i = 0; i < size; i++) x[i] += search.step * direction[i];
@@ -112,11 +113,9 @@ export function minimizeLbfgs(objective: LineObjective, x0: Float64Array, option
       newest = slot;
       stored = Math.min(stored + 1, memory);
     }
-    const decreased = nextValue <= value;
     value = nextValue;
     [gradient, nextGradient] = [nextGradient, gradient];
     converged = maxAbs(gradient) <= target;
-    if (!search.wolfe && !decreased) break;
   }
   return { x, value, gradientNorm: maxAbs(gradient), iterations, evaluations, converged };
 }

@@ -1,4 +1,5 @@
-import { encodeModule, FunctionBody, I32, instantiate, V128 } from "../wasm/encoder.js";
+import { encodeModule, FunctionBody, I32, instantiate, V128, WASM_MEMORY_LIMIT } from "../wasm/encoder.js";
+import { multiplyRows, multiplyTransposed } from "./matrix-products.js";
 
 /**
  * The two products every evaluation of a linear model makes with its design matrix X (n × p),
@@ -10,7 +11,8 @@ import { encodeModule, FunctionBody, I32, instantiate, V128 } from "../wasm/enco
  * Four rows are processed together so each weight (or output) load serves four rows. Rows are
  * padded to a multiple of four and columns to an even stride with zeros, which add nothing.
  * WebAssembly arithmetic is exactly IEEE 754 without contraction, so the results are the same
- * on every machine.
+ * on every machine. A design matrix beyond the 4 GiB a WebAssembly memory can address falls back
+ * to the plain JavaScript products of matrix-products.ts.
  */
 export interface LinearKernels {
   readonly rows: number;
@@ -37,7 +39,9 @@ export function createLinearKernels(rows: number, width: number, k: number, buff
   const xBytes = paddedRows * stride * 8;
   const scratchBytes = (k * stride + k) * 8;
   const bufferBytes = paddedRows * k * 8;
-  const { memory, exports } = instantiate(linearModule, cache, xBytes + 2 * scratchBytes + buffers * bufferBytes);
+  const totalBytes = xBytes + 2 * scratchBytes + buffers * bufferBytes;
+  if (totalBytes > WASM_MEMORY_LIMIT) return javascriptKernels(rows, width);
+  const { memory, exports } = instantiate(linearModule, cache, totalBytes);
   const x = new Float64Array(memory.buffer, 0, paddedRows * stride);
   const weightsAt = xBytes;
   const gradientAt = xBytes + scratchBytes;
@@ -51,6 +55,7 @@ export function createLinearKernels(rows: number, width: number, k: number, buff
     x,
     buffer(length) {
       if (length > paddedRows * k) throw new RangeError("linear kernels: buffer larger than rows × k");
+      if (nextBuffer + bufferBytes > totalBytes) throw new RangeError(`linear kernels: all ${buffers} buffers are in use`);
       const out = new Float64Array(memory.buffer, nextBuffer, length);
       nextBuffer += bufferBytes;
       return out;
@@ -67,6 +72,19 @@ export function createLinearKernels(rows: number, width: number, k: number, buff
       exports.transposed(0, paddedRows, stride, residuals.byteOffset, scoreCount, gradientAt);
       for (let c = 0; c < scoreCount; c++) out.set(gradient.subarray(c * stride, c * stride + width), c * width);
     },
+  };
+}
+
+function javascriptKernels(rows: number, width: number): LinearKernels {
+  const x = new Float64Array(rows * width);
+  return {
+    rows,
+    width,
+    stride: width,
+    x,
+    buffer: (length) => new Float64Array(length),
+    multiplyRows: (weights, intercepts, k, out) => multiplyRows(x, rows, width, weights, intercepts, k, out),
+    multiplyTransposed: (residuals, k, out) => multiplyTransposed(x, rows, width, residuals, k, out),
   };
 }
 

@@ -1,8 +1,9 @@
+import type { FitContext } from "../learner.js";
 import { InputError, type Rng, type TableView, type TrainView } from "@nightshift/core";
 import { z } from "zod";
 import { FitError, type Learner, type ModelJson } from "../learner.js";
-import { designMatrix, DesignEncodingSchema, fitDesign, type DesignEncoding } from "../preprocess/design-matrix.js";
-import { rowWeights } from "./class-weights.js";
+import { designMatrix, DesignEncodingSchema, type DesignEncoding, trainingDesign } from "../preprocess/design-matrix.js";
+import { classWeights } from "./class-weights.js";
 import { createLinearKernels } from "./linear-kernels.js";
 import { fitLogistic } from "./logistic.js";
 import { multiplyRows } from "./matrix-products.js";
@@ -45,8 +46,8 @@ const LinearModelJsonSchema = z
   })
   .strict();
 
-export function fitLinear(view: TrainView, params: LogisticParams): LinearModel {
-  const encoding = fitDesign(view, { missingIndicators: params.missing_indicators });
+export function fitLinear(view: TrainView, params: LogisticParams, context?: FitContext): LinearModel {
+  const encoding = trainingDesign(view, { missingIndicators: params.missing_indicators }, context);
   if (encoding.width === 0) throw new FitError("logistic", "no usable feature: every feature column is constant or missing in the training rows");
   const n = view.rows.length;
   const p = encoding.width;
@@ -86,7 +87,7 @@ export function fitLinear(view: TrainView, params: LogisticParams): LinearModel 
   const design = createLinearKernels(n, p, scoreCount, 3);
   designMatrix(encoding, view, { out: design.x, stride: design.stride });
   const fit = fitLogistic(
-    { design, rows: n, width: p, classOf, classCount: present.length, rowWeights: rowWeights(classOf, present.length, params.class_weight), penalty: params.l2 / n },
+    { design, rows: n, width: p, classOf, classCount: present.length, classWeights: classWeights(classOf, present.length, params.class_weight), penalty: params.l2 / n },
     { maxIterations: params.max_iterations, tolerance: params.tolerance },
   );
   const { iterations, converged, gradientNorm, value } = fit.optimisation;
@@ -177,7 +178,7 @@ export function linearModelFromJSON(json: ModelJson): LinearModel {
 export const logisticLearner: Learner<LogisticParams, LinearModel> = {
   family: "logistic",
   params: LogisticParamsSchema,
-  fit: (view: TrainView, params: LogisticParams, _rng: Rng) => fitLinear(view, params),
+  fit: (view: TrainView, params: LogisticParams, _rng: Rng, context?: FitContext) => fitLinear(view, params, context),
   predict: predictLinear,
   toJSON: linearModelToJSON,
   fromJSON: linearModelFromJSON,

@@ -22,8 +22,8 @@ export interface LogisticProblem {
   readonly classOf: Int32Array;
   /** 2 fits one weight vector for class 1 against class 0; more fits a softmax. */
   readonly classCount: number;
-  /** Weight s_i per row. */
-  readonly rowWeights: Float64Array;
+  /** Weight of each class; row i weighs s_i = classWeights[classOf[i]]. */
+  readonly classWeights: Float64Array;
   /** λ, the weight of (λ/2)·‖W‖² next to the mean loss. */
   readonly penalty: number;
 }
@@ -141,29 +141,57 @@ abstract class LinearLogLoss implements LineObjective {
   }
 }
 
+/** Rows whose factors (1 + e^{-|t|}) ∈ (1, 2] are multiplied before one logarithm; 2^64 cannot overflow. */
+const LOG_BLOCK = 64;
+
 class BinaryLogLoss extends LinearLogLoss {
   constructor(problem: LogisticProblem) {
     super(problem, 1);
   }
 
   protected lossAlong(step: number): { loss: number; slope: number } {
-    const { classOf, rowWeights, rows } = this.problem;
+    const { classOf, classWeights, rows } = this.problem;
     const { scores, directionScores, residuals } = this;
-    let loss = 0;
+    const [w0, w1] = classWeights;
+    // ℓ(t) = log(1 + e^t) − y·t = max(±t, 0) + log(1 + e^{-|t|}) and σ(t), from one exponential.
+    // The logarithms of a block of rows of one class are taken once, of the product of their
+    // factors: Σ log d_i = log Π d_i, with d_i ∈ (1, 2] so the product stays far from overflow.
+    let margins0 = 0;
+    let margins1 = 0;
+    let logs0 = 0;
+    let logs1 = 0;
+    let product0 = 1;
+    let product1 = 1;
     let slope = 0;
     for (let i = 0; i < rows; i++) {
       const u = directionScores[i];
       const t = scores[i] + step * u;
-      // ℓ = log(1 + e^t) − y·t = max(±t, 0) + log(1 + e^{-|t|}) and σ(t), from one exponential.
       const e = Math.exp(-Math.abs(t));
-      const margin = classOf[i] === 1 ? -t : t;
-      const s = rowWeights[i];
-      loss += s * ((margin > 0 ? margin : 0) + Math.log1p(e));
-      const probability = t >= 0 ? 1 / (1 + e) : e / (1 + e);
-      const r = s * (classOf[i] === 1 ? probability - 1 : probability);
+      const d = 1 + e;
+      const inverse = 1 / d;
+      const probability = t >= 0 ? inverse : e * inverse;
+      let r: number;
+      if (classOf[i] === 1) {
+        margins1 += t < 0 ? -t : 0;
+        product1 *= d;
+        r = w1 * (probability - 1);
+      } else {
+        margins0 += t > 0 ? t : 0;
+        product0 *= d;
+        r = w0 * probability;
+      }
       residuals[i] = r;
       slope += r * u;
+      if ((i + 1) % LOG_BLOCK === 0) {
+        logs0 += Math.log(product0);
+        logs1 += Math.log(product1);
+        product0 = 1;
+        product1 = 1;
+      }
     }
+    logs0 += Math.log(product0);
+    logs1 += Math.log(product1);
+    const loss = w0 * (margins0 + logs0) + w1 * (margins1 + logs1);
     return { loss: loss / rows, slope: slope / rows };
   }
 }
@@ -174,7 +202,7 @@ class SoftmaxLogLoss extends LinearLogLoss {
   }
 
   protected lossAlong(step: number): { loss: number; slope: number } {
-    const { classOf, rowWeights, rows } = this.problem;
+    const { classOf, classWeights, rows } = this.problem;
     const k = this.scoreCount;
     const { scores, directionScores, residuals } = this;
     let loss = 0;
@@ -193,7 +221,7 @@ class SoftmaxLogLoss extends LinearLogLoss {
         residuals[o + c] = e;
       }
       const y = classOf[i];
-      const s = rowWeights[i];
+      const s = classWeights[y];
       const t = scores[o + y] + step * directionScores[o + y];
       loss += s * (largest + Math.log(sum) - t);
       for (let c = 0; c < k; c++) {

@@ -1,7 +1,8 @@
 /**
- * Scores of a fitted linear model on a dense row-major design matrix X (n rows × p columns), for
- * prediction. (Fitting repeats such products many times and uses the SIMD kernels of
- * linear-kernels.ts instead.) The order of every sum is fixed, so results are identical on every run.
+ * Products of a dense row-major design matrix X (n rows × p columns) with the weights of k linear
+ * scores, in plain JavaScript: for predictions, and for fits too large for the WebAssembly
+ * kernels of linear-kernels.ts. The order of every sum is fixed, so results are identical on
+ * every run.
  */
 
 /**
@@ -48,6 +49,36 @@ export function multiplyRows(
       let s = 0;
       for (let j = 0; j < p; j++) s += x[row + j] * weights[w + j];
       scores[i * k + c] = s + intercepts[c];
+    }
+  }
+}
+
+/**
+ * out[c·p + j] = Σ_i residuals[i·k + c] · x[i·p + j] (Xᵀ·R for k columns of residuals); out is
+ * overwritten. Rows are taken four at a time so each output element is loaded and stored once
+ * per four rows.
+ */
+export function multiplyTransposed(x: Float64Array, n: number, p: number, residuals: Float64Array, k: number, out: Float64Array): void {
+  out.fill(0, 0, k * p);
+  let i = 0;
+  for (; i + 3 < n; i += 4) {
+    const row0 = i * p;
+    const row1 = row0 + p;
+    const row2 = row1 + p;
+    const row3 = row2 + p;
+    for (let c = 0, o = 0; c < k; c++, o += p) {
+      const r0 = residuals[i * k + c];
+      const r1 = residuals[(i + 1) * k + c];
+      const r2 = residuals[(i + 2) * k + c];
+      const r3 = residuals[(i + 3) * k + c];
+      for (let j = 0; j < p; j++) out[o + j] += r0 * x[row0 + j] + r1 * x[row1 + j] + (r2 * x[row2 + j] + r3 * x[row3 + j]);
+    }
+  }
+  for (; i < n; i++) {
+    const row = i * p;
+    for (let c = 0, o = 0; c < k; c++, o += p) {
+      const r = residuals[i * k + c];
+      for (let j = 0; j < p; j++) out[o + j] += r * x[row + j];
     }
   }
 }

@@ -1,5 +1,6 @@
 import { MISSING_CODE, type FeatureColumn, type TableView } from "@nightshift/core";
 import { z } from "zod";
+import type { FitContext } from "../learner.js";
 
 /**
  * The numeric design matrix shared by the linear family and k nearest neighbours, fitted on the
@@ -215,4 +216,20 @@ function checkColumn(fitted: ColumnEncoding, column: FeatureColumn): void {
   if (fitted.name !== column.name) throw new TypeError(`design: expected feature column "${fitted.name}", given "${column.name}"`);
   if ((fitted.kind === "categorical") !== (column.kind === "categorical"))
     throw new TypeError(`design: feature column "${column.name}" was ${fitted.kind} in training, given ${column.kind}`);
+}
+
+/**
+ * The design encoding (standardisation, imputation, one-hot categories) of a fit's training
+ * rows, reused across fits on the same rows (same fold) when the runner offers a memo: it
+ * depends on those rows and the indicator option only. Callers must not modify it.
+ */
+export function trainingDesign(view: TableView, options: DesignOptions, context?: FitContext): DesignEncoding {
+  if (!context) return fitDesign(view, options);
+  const key = `${context.key}:design:${options.missingIndicators}:${view.rows.length}`;
+  let encoding = context.memo.get(key) as DesignEncoding | undefined;
+  if (!encoding) {
+    encoding = fitDesign(view, options);
+    context.memo.set(key, encoding);
+  }
+  return encoding;
 }

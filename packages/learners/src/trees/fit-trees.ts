@@ -1,6 +1,6 @@
 import { createRng, predictionWidth, type Rng, type TableView, type Task, type TrainView } from "@nightshift/core";
-import { type BinMapper, binRows, fitBinMapper } from "../binning/bin-mapper.js";
-import { FitError } from "../learner.js";
+import { type BinMapper, binRows, binTrainingRows } from "../binning/bin-mapper.js";
+import { type FitContext, FitError } from "../learner.js";
 import { type GrowData, TreeGrower } from "./grow-tree.js";
 import { CRITERION_ENTROPY, CRITERION_GINI, CRITERION_SQUARED_ERROR, type CriterionCode } from "./impurity.js";
 import { addTreePredictions } from "./predict-tree.js";
@@ -46,13 +46,13 @@ const SEED_RANGE = 2 ** 32;
  * Per tree: a bootstrap sample (n·row_sample draws with replacement, kept as per-row counts;
  * Breiman 2001), or without bootstrap n·row_sample distinct rows (all rows when row_sample = 1).
  */
-export function fitTrees(family: TreeFamily, view: TrainView, settings: EnsembleSettings, rng: Rng): TreeEnsembleModel {
+export function fitTrees(family: TreeFamily, view: TrainView, settings: EnsembleSettings, rng: Rng, context?: FitContext): TreeEnsembleModel {
   const n = view.rows.length;
   if (n === 0) throw new FitError(family, "no training rows");
   const seeds = new Float64Array(settings.trees);
   for (let t = 0; t < settings.trees; t++) seeds[t] = rng.int(SEED_RANGE);
-  const mapper = fitBinMapper(view, settings.bins, createRng(rng.int(SEED_RANGE), "binning"));
-  const binned = binRows(mapper, view);
+  // Bins depend on the training rows alone (no draw from rng), so a fold's bins are reused from the worker's memo.
+  const { mapper, binned } = binTrainingRows(view, settings.bins, context);
   const usable: number[] = [];
   for (let f = 0; f < binned.binCounts.length; f++) if (binned.binCounts[f] >= 2) usable.push(f);
   if (usable.length === 0) throw new FitError(family, "no usable feature: every feature is constant or missing in the training rows");
@@ -118,7 +118,7 @@ function targetData(
       values[r] = target.values[view.rows[r]];
       if (!Number.isFinite(values[r])) throw new FitError(family, `target is missing or not finite in training row ${view.rows[r]}`);
     }
-    const data: GrowData = { bins, categorical, usable, classes: null, classCount: 0, values, classWeight: new Float64Array(0) };
+    const data: GrowData = { bins, rowBins: rowMajor(bins, n), categorical, usable, classes: null, classCount: 0, values, classWeight: new Float64Array(0) };
     return { data, width: predictionWidth("regression", 1), criterion: CRITERION_SQUARED_ERROR };
   }
   if (target.kind !== "classes") throw new FitError(family, `a ${view.task} task needs a class target`);
@@ -139,7 +139,7 @@ function targetData(
     // w_c = n / (C · n_c) over the classes present (King & Zeng 2001; METHODS.md §9).
     for (let c = 0; c < classCount; c++) classWeight[c] = perClass[c] > 0 ? n / (present * perClass[c]) : 1;
   }
-  const data: GrowData = { bins, categorical, usable, classes, classCount, values: null, classWeight };
+  const data: GrowData = { bins, rowBins: rowMajor(bins, n), categorical, usable, classes, classCount, values: null, classWeight };
   return { data, width: predictionWidth(view.task, classCount), criterion: settings.criterion === "entropy" ? CRITERION_ENTROPY : CRITERION_GINI };
 }
 
@@ -163,4 +163,18 @@ function sampleRows(counts: Float64Array, picks: Uint32Array | null, draws: numb
     picks[i] = row;
     counts[row] = 1;
   }
+}
+
+/** Above this many bytes the row-major copy of the bins is not made (nodes then read columns). */
+const ROW_MAJOR_BYTES = 2 ** 28;
+
+function rowMajor(bins: readonly Uint8Array[], rows: number): Uint8Array | null {
+  const p = bins.length;
+  if (rows * p > ROW_MAJOR_BYTES) return null;
+  const out = new Uint8Array(rows * p);
+  for (let f = 0; f < p; f++) {
+    const column = bins[f];
+    for (let r = 0; r < rows; r++) out[r * p + f] = column[r];
+  }
+  return out;
 }

@@ -3,12 +3,26 @@ import { MISSING_BIN } from "../binning/bin-mapper.js";
 import { HistogramPool, MASK_WORDS } from "./histogram-pool.js";
 import { CRITERION_SQUARED_ERROR, type CriterionCode } from "./impurity.js";
 import { SplitFinder } from "./split-finder.js";
+import { addClassRows, addClassRowsMarking, addRegressionRows, markFromRows, markRows } from "./histogram-kernels.js";
+import { partitionGathered, partitionGatheredUnit, partitionRows } from "./partition-rows.js";
+import {
+  cutClasses,
+  cutRegression,
+  cutTwoClasses,
+  cutTwoClassesUnit,
+  cutTwoClassesUnitComplete,
+  gatherRange,
+  sumClassesInSet,
+  sumRegressionInSet,
+} from "./random-cut-kernels.js";
 import { TreeBuilder, type TreeArrays } from "./tree-model.js";
 
 /** The training rows of one fit, binned once and shared by every tree grown on them. */
 export interface GrowData {
   /** bins[f][r]: bin of training row r on feature f (MISSING_BIN for missing). */
   readonly bins: readonly Uint8Array[];
+  /** The same bins row-major, rowBins[r * p + f]; null when that copy would be too large. */
+  readonly rowBins: Uint8Array | null;
   readonly categorical: readonly boolean[];
   /** Features with at least two value bins; the others can never split. */
   readonly usable: Int32Array;
@@ -41,17 +55,28 @@ export interface GrowSettings {
 const MARK_WHILE_BUILDING_ROWS = 512;
 
 /**
+ * Nodes with fewer rows read bins row-major: their rows lie far apart, and one cache line then
+ * serves every feature tried on a row. Larger nodes read the features' columns, whose lines
+ * their rows (kept in ascending order) mostly share. Measured on bench/trees.bench.ts's set.
+ */
+const ROW_MAJOR_ROWS = 512;
+
+/**
  * Grows depth-first decision trees on binned rows (one grower per fit, reused for every tree of
  * a forest so buffers are allocated once).
  *
- * Rows of a node are a range of one Uint32Array of row indices, partitioned in place at each
- * split. A node's histograms are built for its candidate features when its parent splits:
- * the child with fewer rows is built from its rows and its sibling's histogram of a feature
- * both need is the parent's minus it (histogram subtraction, Ke et al. 2017 §3), whenever the
- * parent has that feature's histogram. With per-split feature sampling (forests) the children
- * mostly draw features the parent did not try, so most histograms are built from rows; a
- * feature only one child needs is still derived by subtraction when the other child is smaller
- * than the needing one.
+ * Rows of a node are a range of one Uint32Array of row indices, partitioned at each split
+ * (stably, so a node's rows stay in ascending row order).
+ *
+ * Best cuts (CART, forests): a node's histograms are built for its candidate features when its
+ * parent splits. The child with fewer rows is built from its rows, and its sibling's histogram
+ * of a feature both need is the parent's minus it (histogram subtraction, Ke et al. 2017)
+ * whenever the parent has that feature's histogram. With per-split feature sampling the
+ * children mostly draw features the parent did not try, so most histograms are then built from
+ * rows; a feature only one child needs is still derived by subtraction when the other child is
+ * smaller than the needing one.
+ *
+ * Random cuts (extra trees): no histograms; see `randomCut`.
  *
  * Features found constant in a node are never tried again below it, and do not count towards
  * the features tried per split (as in Breiman's and the common implementations).
@@ -75,11 +100,19 @@ export class TreeGrower {
   private readonly channel: Int32Array;
   /** Bootstrap multiplicity (or 1) of the row. */
   private readonly count: Float64Array;
+  /** Room for the right side while partitioning. */
+  private readonly spareIndex: Uint32Array;
+  private readonly spareCount: Float64Array;
+  private readonly spareChannel: Int32Array;
+  private readonly spareValues: Float64Array;
   /** A random cut's bins by position, and those of the best cut so far (swapped, not copied). */
   private gathered: Uint8Array;
   private bestGathered: Uint8Array;
   /** Whether bestGathered holds the bins of the node's best split so far. */
   private bestIsGathered = false;
+  /** Set by `locate`. */
+  private step = 1;
+  private offset = 0;
   /** Whether every count is 1 (no bootstrap): kernels then skip the counts. */
   private unitCounts = false;
   /** count·y of the row, regression only. */
@@ -136,6 +169,10 @@ export class TreeGrower {
     this.channel = new Int32Array(this.regression ? 0 : rowCount);
     this.count = new Float64Array(rowCount);
     this.countTimesValue = new Float64Array(this.regression ? rowCount : 0);
+    this.spareIndex = new Uint32Array(rowCount);
+    this.spareCount = new Float64Array(rowCount);
+    this.spareChannel = new Int32Array(this.regression ? 0 : rowCount);
+    this.spareValues = new Float64Array(this.regression ? rowCount : 0);
     this.gathered = new Uint8Array(settings.randomCuts ? rowCount : 0);
     this.bestGathered = new Uint8Array(settings.randomCuts ? rowCount : 0);
     const p = this.featureCount;
@@ -199,11 +236,14 @@ export class TreeGrower {
     const end = this.stackEnd[top];
     const depth = this.stackDepth[top];
     let constants = this.stackConstants[top];
+    const firstCandidate = constants;
     let drawn = this.stackDrawn[top];
     const order = this.order;
     const slots = this.slots;
-    order.set(this.stackOrder.subarray(top * p, top * p + p));
-    slots.set(this.stackSlots.subarray(top * p, top * p + p));
+    const randomCuts = this.settings.randomCuts;
+    const poppedOrder = this.stackOrder;
+    for (let f = 0, at = top * p; f < p; f++) order[f] = poppedOrder[at + f];
+    if (!randomCuts) for (let f = 0, at = top * p; f < p; f++) slots[f] = this.stackSlots[at + f];
     const stats = this.stats;
     for (let k = 0; k < this.width; k++) stats[k] = this.stackStats[top * this.width + k];
     const usableCount = this.data.usable.length;
@@ -215,11 +255,10 @@ export class TreeGrower {
     const constantNow = this.constantNow;
     const categorical = this.data.categorical;
     const random = this.settings.splitFeatures < usableCount;
-    const randomCuts = this.settings.randomCuts;
     let tried = 0;
     for (let position = constants; position < usableCount; position++) {
       if (position === constants + drawn) {
-        if (random) drawFeature(order, position, usableCount, rng);
+        if (random) drawFeature(order, 0, position, usableCount, rng);
         drawn++;
       }
       const feature = order[position];
@@ -240,6 +279,9 @@ export class TreeGrower {
       }
       tried++;
       if (tried >= this.settings.splitFeatures && finder.found) break;
+      // No candidate can strictly beat a split into two pure children, so the rest are skipped:
+      // the tree is the same as with every candidate scored (the first best is kept either way).
+      if (!this.regression && finder.found && finder.splitsPurely()) break;
     }
 
     // Features found constant here move to the front: children skip them.
@@ -254,9 +296,11 @@ export class TreeGrower {
     }
     constants = childConstants;
 
+    // Only the features tried here (order positions from firstCandidate on) hold histograms.
+    const triedEnd = firstCandidate + drawn;
     if (!finder.found) {
       this.writeLeaf(node, stats);
-      this.releaseSlots(slots, order, usableCount);
+      if (!randomCuts) this.releaseSlots(slots, order, firstCandidate, triedEnd);
       return;
     }
     const mid = this.partition(start, end);
@@ -277,8 +321,10 @@ export class TreeGrower {
 
     const leftSlots = this.leftSlots;
     const rightSlots = this.rightSlots;
-    leftSlots.fill(-1);
-    rightSlots.fill(-1);
+    if (!randomCuts) {
+      leftSlots.fill(-1);
+      rightSlots.fill(-1);
+    }
     if (leftOpen || rightOpen) {
       // The smaller child is split first (pushed last): its subtree holds fewer histograms while
       // the other waits. The child pushed first keeps its order at the stack's top entry.
@@ -291,19 +337,25 @@ export class TreeGrower {
       const rightAt = base + (bothOpen && !leftFirst ? p : 0);
       if (leftOpen) this.drawInto(leftAt, constants, first, usableCount, random, rng);
       if (rightOpen) this.drawInto(rightAt, constants, first, usableCount, random, rng);
-      const stackOrder = this.stackOrder;
-      for (let i = constants; i < constants + first; i++) {
-        if (leftOpen) need[stackOrder[leftAt + i]] |= 1;
-        if (rightOpen) need[stackOrder[rightAt + i]] |= 2;
+      if (!randomCuts) {
+        // reserveOrders may have grown the stack: read its current arrays.
+        const orders = this.stackOrder;
+        for (let i = constants; i < constants + first; i++) {
+          if (leftOpen) need[orders[leftAt + i]] |= 1;
+          if (rightOpen) need[orders[rightAt + i]] |= 2;
+        }
+        this.childHistograms(start, mid, end, leftRows, leftOpen ? leftAt : -1, rightOpen ? rightAt : -1, constants, first);
+        for (let i = constants; i < constants + first; i++) {
+          if (leftOpen) need[orders[leftAt + i]] = 0;
+          if (rightOpen) need[orders[rightAt + i]] = 0;
+        }
+        this.releaseSlots(slots, order, firstCandidate, triedEnd);
       }
-      if (!randomCuts) this.childHistograms(start, mid, end, leftRows, leftOpen ? leftAt : -1, rightOpen ? rightAt : -1, constants, first);
-      for (let i = 0; i < usableCount; i++) need[childOrder[i]] = 0;
-      this.releaseSlots(slots, order, usableCount);
-      if (rightOpen && leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, rightAt, constants, first, rightSlots);
-      if (leftOpen) this.pushPrepared(leftNode, start, mid, depth + 1, leftStats, leftAt, constants, first, leftSlots);
-      if (rightOpen && !leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, rightAt, constants, first, rightSlots);
-    } else {
-      this.releaseSlots(slots, order, usableCount);
+      if (rightOpen && leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, constants, first, rightSlots);
+      if (leftOpen) this.pushPrepared(leftNode, start, mid, depth + 1, leftStats, constants, first, leftSlots);
+      if (rightOpen && !leftFirst) this.pushPrepared(rightNode, mid, end, depth + 1, rightStats, constants, first, rightSlots);
+    } else if (!randomCuts) {
+      this.releaseSlots(slots, order, firstCandidate, triedEnd);
     }
   }
 
@@ -386,14 +438,16 @@ export class TreeGrower {
    * left sums) cost less than a histogram here, since only one cut is scored.
    */
   private randomCut(feature: number, categorical: boolean, start: number, end: number, rng: Rng): boolean {
-    const column = this.data.bins[feature];
+    const source = this.locate(feature, end - start);
+    const step = this.step;
+    const offset = this.offset;
     const finder = this.finder;
     const left = finder.cumulative;
     const missing = finder.missing;
     const tally = this.tally;
     if (!categorical) {
       const gathered = this.gathered;
-      const range = gatherRange(column, this.index, start, end, gathered);
+      const range = gatherRange(source, step, offset, this.index, start, end, gathered);
       const lowest = range & 0xff;
       const highest = (range >>> 8) & 0xff;
       const hasMissing = range >>> 16 === 1;
@@ -417,7 +471,7 @@ export class TreeGrower {
     }
     const present = this.presentBins;
     present.fill(0);
-    markRows(present, 0, column, this.index, start, end);
+    markRows(present, 0, source, step, offset, this.index, start, end);
     const hasMissing = (present[MISSING_BIN >>> 5] & (1 << (MISSING_BIN & 31))) !== 0;
     present[MISSING_BIN >>> 5] &= ~(1 << (MISSING_BIN & 31));
     const bins = this.binList;
@@ -454,8 +508,8 @@ export class TreeGrower {
       set[bins[j] >>> 5] |= 1 << (bins[j] & 31);
       finder.order[size++] = bins[j];
     }
-    if (this.regression) sumRegressionInSet(column, this.index, start, end, this.count, this.countTimesValue, set, left, missing, tally);
-    else sumClassesInSet(column, this.index, start, end, this.channel, this.count, set, left, missing, tally);
+    if (this.regression) sumRegressionInSet(source, step, offset, this.index, start, end, this.count, this.countTimesValue, set, left, missing, tally);
+    else sumClassesInSet(source, step, offset, this.index, start, end, this.channel, this.count, set, left, missing, tally);
     finder.missingRows = tally[1];
     const updates = finder.updates;
     finder.considerCut(feature, -size, tally[0], true);
@@ -463,21 +517,40 @@ export class TreeGrower {
     return true;
   }
 
+  /**
+   * Where to read a feature's bins for a node of `rows` rows: bin of row r at
+   * source[r * step + offset]. Small nodes read the row-major copy: their rows are scattered,
+   * and one cache line then serves every feature tried on a row instead of one.
+   */
+  private locate(feature: number, rows: number): Uint8Array {
+    const rowBins = this.data.rowBins;
+    if (rows < ROW_MAJOR_ROWS && rowBins !== null) {
+      this.step = this.featureCount;
+      this.offset = feature;
+      return rowBins;
+    }
+    this.step = 1;
+    this.offset = 0;
+    return this.data.bins[feature];
+  }
+
   /** Adds the histogram of `feature` over rows index[start, end) to an empty slot. */
   private buildHistogram(feature: number, slot: number, start: number, end: number): void {
     const pool = this.pool;
     const base = slot * pool.slotSize;
     const maskBase = slot * MASK_WORDS;
-    const column = this.data.bins[feature];
+    const source = this.locate(feature, end - start);
+    const step = this.step;
+    const offset = this.offset;
     const mark = end - start < MARK_WHILE_BUILDING_ROWS;
     if (this.regression) {
-      addRegressionRows(pool.values, base, column, this.index, start, end, this.count, this.countTimesValue);
-      if (mark) markRows(pool.masks, maskBase, column, this.index, start, end);
+      addRegressionRows(pool.values, base, source, step, offset, this.index, start, end, this.count, this.countTimesValue);
+      if (mark) markRows(pool.masks, maskBase, source, step, offset, this.index, start, end);
       else markFromRows(pool.values, base, this.stride, pool.masks, maskBase);
     } else if (mark) {
-      addClassRowsMarking(pool.values, base, this.stride, column, this.index, start, end, this.channel, this.count, pool.masks, maskBase);
+      addClassRowsMarking(pool.values, base, this.stride, source, step, offset, this.index, start, end, this.channel, this.count, pool.masks, maskBase);
     } else {
-      addClassRows(pool.values, base, this.stride, column, this.index, start, end, this.channel, this.count);
+      addClassRows(pool.values, base, this.stride, source, step, offset, this.index, start, end, this.channel, this.count);
       markFromRows(pool.values, base, this.stride, pool.masks, maskBase);
     }
   }
@@ -485,7 +558,6 @@ export class TreeGrower {
   /** Moves the rows going left to the front of positions [start, end); returns the first right position. */
   private partition(start: number, end: number): number {
     const finder = this.finder;
-    const column = this.data.bins[finder.feature];
     const goesLeft = this.goesLeft;
     if (finder.categorical) {
       const set = finder.leftSet;
@@ -497,8 +569,16 @@ export class TreeGrower {
       goesLeft[MISSING_BIN] = finder.missingLeft ? 1 : 0;
     }
     const other = this.regression ? this.countTimesValue : this.channel;
-    if (this.bestIsGathered) return partitionGathered(this.bestGathered, goesLeft, this.index, this.count, other, start, end);
-    return partitionRows(column, goesLeft, this.index, this.count, other, start, end);
+    const spareOther = this.regression ? this.spareValues : this.spareChannel;
+    if (this.bestIsGathered && this.unitCounts) {
+      // Every count is 1 in every position: counts need not move.
+      return partitionGatheredUnit(this.bestGathered, goesLeft, this.index, other, start, end, this.spareIndex, spareOther);
+    }
+    if (this.bestIsGathered) {
+      return partitionGathered(this.bestGathered, goesLeft, this.index, this.count, other, start, end, this.spareIndex, this.spareCount, spareOther);
+    }
+    const source = this.locate(finder.feature, end - start);
+    return partitionRows(source, this.step, this.offset, goesLeft, this.index, this.count, other, start, end, this.spareIndex, this.spareCount, spareOther);
   }
 
   private isTerminal(start: number, end: number, depth: number, stats: Float64Array): boolean {
@@ -547,8 +627,8 @@ export class TreeGrower {
     for (let k = 0; k < this.width; k++) values[offset + k] = (weight[k] * stats[k]) / total;
   }
 
-  private releaseSlots(slots: Int32Array, order: Int32Array, usableCount: number): void {
-    for (let i = 0; i < usableCount; i++) {
+  private releaseSlots(slots: Int32Array, order: Int32Array, from: number, to: number): void {
+    for (let i = from; i < to; i++) {
       const feature = order[i];
       if (slots[feature] >= 0) {
         this.pool.release(slots[feature]);
@@ -570,8 +650,7 @@ export class TreeGrower {
   /** Draws the first `first` features after the constants of the order stored at `at`. */
   private drawInto(at: number, constants: number, first: number, usableCount: number, random: boolean, rng: Rng): void {
     if (!random) return;
-    const order = this.stackOrder.subarray(at, at + usableCount);
-    for (let i = constants; i < constants + first; i++) drawFeature(order, i, usableCount, rng);
+    for (let i = constants; i < constants + first; i++) drawFeature(this.stackOrder, at, i, usableCount, rng);
   }
 
   /** Root entry (its order is given; no histograms yet). */
@@ -584,21 +663,20 @@ export class TreeGrower {
     const first = Math.min(this.settings.splitFeatures, usableCount - constants);
     this.drawInto(at, constants, first, usableCount, random, rng);
     this.slots.fill(-1);
-    this.pushPrepared(node, start, end, depth, stats, at, constants, first, this.slots);
+    this.pushPrepared(node, start, end, depth, stats, constants, first, this.slots);
   }
 
-  /** Pushes an entry whose order already sits in the stack at its own place. */
-  private pushPrepared(node: number, start: number, end: number, depth: number, stats: Float64Array, orderAt: number, constants: number, drawn: number, slots: Int32Array): void {
+  /** Pushes an entry whose feature order already sits in the stack at its own place (top · p). */
+  private pushPrepared(node: number, start: number, end: number, depth: number, stats: Float64Array, constants: number, drawn: number, slots: Int32Array): void {
     const p = this.featureCount;
     const top = this.stackSize++;
-    if (orderAt !== top * p) throw new Error("tree grower: stack order out of place");
     this.stackNode[top] = node;
     this.stackStart[top] = start;
     this.stackEnd[top] = end;
     this.stackDepth[top] = depth;
     this.stackConstants[top] = constants;
     this.stackDrawn[top] = drawn;
-    this.stackSlots.set(slots, top * p);
+    if (!this.settings.randomCuts) this.stackSlots.set(slots, top * p);
     for (let k = 0; k < this.width; k++) this.stackStats[top * this.width + k] = stats[k];
   }
 
@@ -626,401 +704,13 @@ export class TreeGrower {
   }
 }
 
-/** Partial Fisher–Yates step: a uniformly drawn feature among order[position, size) moves to `position`. */
-function drawFeature(order: Int32Array, position: number, size: number, rng: Rng): void {
-  const pick = position + rng.int(size - position);
+/**
+ * Partial Fisher–Yates step on the order stored from `at`: a uniformly drawn feature among
+ * positions [position, size) moves to `position`.
+ */
+function drawFeature(order: Int32Array, at: number, position: number, size: number, rng: Rng): void {
+  const pick = at + position + rng.int(size - position);
   const feature = order[pick];
-  order[pick] = order[position];
-  order[position] = feature;
-}
-
-// Histogram kernels: top-level functions with every array passed in, so each stays small,
-// monomorphic and optimised on its own.
-
-function addClassRows(hist: Float64Array, base: number, stride: number, column: Uint8Array, index: Uint32Array, start: number, end: number, channel: Int32Array, count: Float64Array): void {
-  for (let i = start; i < end; i++) {
-    const o = base + column[index[i]] * stride;
-    hist[o] += 1;
-    hist[o + channel[i]] += count[i];
-  }
-}
-
-function addClassRowsMarking(
-  hist: Float64Array,
-  base: number,
-  stride: number,
-  column: Uint8Array,
-  index: Uint32Array,
-  start: number,
-  end: number,
-  channel: Int32Array,
-  count: Float64Array,
-  masks: Uint32Array,
-  maskBase: number,
-): void {
-  for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
-    const o = base + bin * stride;
-    hist[o] += 1;
-    hist[o + channel[i]] += count[i];
-    masks[maskBase + (bin >>> 5)] |= 1 << (bin & 31);
-  }
-}
-
-function addRegressionRows(hist: Float64Array, base: number, column: Uint8Array, index: Uint32Array, start: number, end: number, count: Float64Array, countTimesValue: Float64Array): void {
-  for (let i = start; i < end; i++) {
-    const o = base + column[index[i]] * 3;
-    hist[o] += 1;
-    hist[o + 1] += count[i];
-    hist[o + 2] += countTimesValue[i];
-  }
-}
-
-function markRows(masks: Uint32Array, maskBase: number, column: Uint8Array, index: Uint32Array, start: number, end: number): void {
-  for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
-    masks[maskBase + (bin >>> 5)] |= 1 << (bin & 31);
-  }
-}
-
-/** Marks the bins whose row channel is non-zero. */
-function markFromRows(hist: Float64Array, base: number, stride: number, masks: Uint32Array, maskBase: number): void {
-  for (let w = 0; w < MASK_WORDS; w++) {
-    let bits = 0;
-    const first = base + (w << 5) * stride;
-    for (let i = 0; i < 32; i++) if (hist[first + i * stride] !== 0) bits |= 1 << i;
-    masks[maskBase + w] = bits;
-  }
-}
-
-/**
- * Stable-free in-place partition of positions [start, end) by `goesLeft[bin]`, moving the row
- * index and its two per-position arrays together; returns the first position of the right side.
- */
-function partitionRows(column: Uint8Array, goesLeft: Uint8Array, index: Uint32Array, count: Float64Array, other: Int32Array | Float64Array, start: number, end: number): number {
-  let i = start;
-  let j = end;
-  while (i < j) {
-    const r = index[i];
-    if (goesLeft[column[r]] === 1) {
-      i++;
-      continue;
-    }
-    j--;
-    index[i] = index[j];
-    index[j] = r;
-    const c = count[i];
-    count[i] = count[j];
-    count[j] = c;
-    const o = other[i];
-    other[i] = other[j];
-    other[j] = o;
-  }
-  return i;
-}
-
-/** partitionRows for a split whose bins by position are at hand (random cuts). */
-function partitionGathered(gathered: Uint8Array, goesLeft: Uint8Array, index: Uint32Array, count: Float64Array, other: Int32Array | Float64Array, start: number, end: number): number {
-  let i = start;
-  let j = end;
-  while (i < j) {
-    const bin = gathered[i];
-    if (goesLeft[bin] === 1) {
-      i++;
-      continue;
-    }
-    j--;
-    gathered[i] = gathered[j];
-    gathered[j] = bin;
-    const r = index[i];
-    index[i] = index[j];
-    index[j] = r;
-    const c = count[i];
-    count[i] = count[j];
-    count[j] = c;
-    const o = other[i];
-    other[i] = other[j];
-    other[j] = o;
-  }
-  return i;
-}
-
-/**
- * Copies a feature's bins of positions [start, end) into `gathered` (same positions), so the
- * next passes read them in order, and returns the lowest and highest present value bin and
- * whether a missing value occurs: lowest | highest << 8 | missing << 16 (lowest > highest when
- * all are missing).
- */
-function gatherRange(column: Uint8Array, index: Uint32Array, start: number, end: number, gathered: Uint8Array): number {
-  let lowest = MISSING_BIN;
-  let highest = 0;
-  let missing = 0;
-  for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
-    gathered[i] = bin;
-    const isMissing = (bin + 1) >>> 8;
-    // The missing bin (255) counts as 0 for the highest present bin; it never lowers the lowest.
-    const value = bin - isMissing * MISSING_BIN;
-    missing |= isMissing;
-    lowest = bin < lowest ? bin : lowest;
-    highest = value > highest ? value : highest;
-  }
-  return lowest | (highest << 8) | (missing << 16);
-}
-
-// Sums of one random cut: `left` gets the statistics of bins <= threshold, `missing` those of
-// the missing bin, tally = [rows left, rows missing]. Sides are chosen by arithmetic, not
-// branches: a random cut sends rows left and right unpredictably.
-
-function cutTwoClasses(
-  gathered: Uint8Array,
-  start: number,
-  end: number,
-  channel: Int32Array,
-  count: Float64Array,
-  threshold: number,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  let leftRows = 0;
-  let leftCount = 0;
-  let leftSecond = 0;
-  let missingRows = 0;
-  let missingCount = 0;
-  let missingSecond = 0;
-  for (let i = start; i < end; i++) {
-    const bin = gathered[i];
-    const isLeft = (bin - threshold - 1) >>> 31;
-    const isMissing = (bin + 1) >>> 8;
-    const c = count[i];
-    const second = c * (channel[i] - 1);
-    leftRows += isLeft;
-    leftCount += isLeft * c;
-    leftSecond += isLeft * second;
-    missingRows += isMissing;
-    missingCount += isMissing * c;
-    missingSecond += isMissing * second;
-  }
-  left[0] = leftCount - leftSecond;
-  left[1] = leftSecond;
-  missing[0] = missingCount - missingSecond;
-  missing[1] = missingSecond;
-  tally[0] = leftRows;
-  tally[1] = missingRows;
-}
-
-function cutTwoClassesUnit(
-  gathered: Uint8Array,
-  start: number,
-  end: number,
-  channel: Int32Array,
-  threshold: number,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  let leftRows = 0;
-  let leftSecond = 0;
-  let missingRows = 0;
-  let missingSecond = 0;
-  for (let i = start; i < end; i++) {
-    const bin = gathered[i];
-    const isLeft = (bin - threshold - 1) >>> 31;
-    const isMissing = (bin + 1) >>> 8;
-    const second = channel[i] - 1;
-    leftRows += isLeft;
-    leftSecond += isLeft & second;
-    missingRows += isMissing;
-    missingSecond += isMissing & second;
-  }
-  left[0] = leftRows - leftSecond;
-  left[1] = leftSecond;
-  missing[0] = missingRows - missingSecond;
-  missing[1] = missingSecond;
-  tally[0] = leftRows;
-  tally[1] = missingRows;
-}
-
-/** cutTwoClassesUnit for a node without missing values on the feature. */
-function cutTwoClassesUnitComplete(
-  gathered: Uint8Array,
-  start: number,
-  end: number,
-  channel: Int32Array,
-  threshold: number,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  let leftRows = 0;
-  let leftSecond = 0;
-  const limit = threshold + 1;
-  for (let i = start; i < end; i++) {
-    const isLeft = (gathered[i] - limit) >>> 31;
-    leftRows += isLeft;
-    leftSecond += isLeft & (channel[i] - 1);
-  }
-  left[0] = leftRows - leftSecond;
-  left[1] = leftSecond;
-  missing[0] = 0;
-  missing[1] = 0;
-  tally[0] = leftRows;
-  tally[1] = 0;
-}
-
-function cutRegression(
-  gathered: Uint8Array,
-  start: number,
-  end: number,
-  count: Float64Array,
-  countTimesValue: Float64Array,
-  threshold: number,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  let leftRows = 0;
-  let leftCount = 0;
-  let leftSum = 0;
-  let missingRows = 0;
-  let missingCount = 0;
-  let missingSum = 0;
-  for (let i = start; i < end; i++) {
-    const bin = gathered[i];
-    const isLeft = (bin - threshold - 1) >>> 31;
-    const isMissing = (bin + 1) >>> 8;
-    const c = count[i];
-    const cy = countTimesValue[i];
-    leftRows += isLeft;
-    leftCount += isLeft * c;
-    leftSum += isLeft * cy;
-    missingRows += isMissing;
-    missingCount += isMissing * c;
-    missingSum += isMissing * cy;
-  }
-  left[0] = leftCount;
-  left[1] = leftSum;
-  missing[0] = missingCount;
-  missing[1] = missingSum;
-  tally[0] = leftRows;
-  tally[1] = missingRows;
-}
-
-function cutClasses(
-  gathered: Uint8Array,
-  start: number,
-  end: number,
-  channel: Int32Array,
-  count: Float64Array,
-  threshold: number,
-  sums: Float64Array,
-  stride: number,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  sums.fill(0);
-  for (let i = start; i < end; i++) {
-    const bin = gathered[i];
-    // 0 left, 1 right, 2 missing
-    const side = (1 - ((bin - threshold - 1) >>> 31)) + ((bin + 1) >>> 8);
-    const o = side * stride;
-    sums[o] += 1;
-    sums[o + channel[i]] += count[i];
-  }
-  for (let k = 0; k < left.length; k++) {
-    left[k] = sums[1 + k];
-    missing[k] = sums[2 * stride + 1 + k];
-  }
-  tally[0] = sums[0];
-  tally[1] = sums[2 * stride];
-}
-
-function sumClassesInSet(
-  column: Uint8Array,
-  index: Uint32Array,
-  start: number,
-  end: number,
-  channel: Int32Array,
-  count: Float64Array,
-  set: Uint32Array,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  let leftRows = 0;
-  let missingRows = 0;
-  for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
-    if (bin === MISSING_BIN) {
-      missingRows++;
-      missing[channel[i] - 1] += count[i];
-    } else if (((set[bin >>> 5] >>> (bin & 31)) & 1) !== 0) {
-      leftRows++;
-      left[channel[i] - 1] += count[i];
-    }
-  }
-  tally[0] = leftRows;
-  tally[1] = missingRows;
-}
-
-function sumRegressionBelow(
-  column: Uint8Array,
-  index: Uint32Array,
-  start: number,
-  end: number,
-  count: Float64Array,
-  countTimesValue: Float64Array,
-  threshold: number,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  let leftRows = 0;
-  let missingRows = 0;
-  for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
-    if (bin <= threshold) {
-      leftRows++;
-      left[0] += count[i];
-      left[1] += countTimesValue[i];
-    } else if (bin === MISSING_BIN) {
-      missingRows++;
-      missing[0] += count[i];
-      missing[1] += countTimesValue[i];
-    }
-  }
-  tally[0] = leftRows;
-  tally[1] = missingRows;
-}
-
-function sumRegressionInSet(
-  column: Uint8Array,
-  index: Uint32Array,
-  start: number,
-  end: number,
-  count: Float64Array,
-  countTimesValue: Float64Array,
-  set: Uint32Array,
-  left: Float64Array,
-  missing: Float64Array,
-  tally: Float64Array,
-): void {
-  let leftRows = 0;
-  let missingRows = 0;
-  for (let i = start; i < end; i++) {
-    const bin = column[index[i]];
-    if (bin === MISSING_BIN) {
-      missingRows++;
-      missing[0] += count[i];
-      missing[1] += countTimesValue[i];
-    } else if (((set[bin >>> 5] >>> (bin & 31)) & 1) !== 0) {
-      leftRows++;
-      left[0] += count[i];
-      left[1] += countTimesValue[i];
-    }
-  }
-  tally[0] = leftRows;
-  tally[1] = missingRows;
+  order[pick] = order[at + position];
+  order[at + position] = feature;
 }

@@ -41,8 +41,8 @@ function ensembleSettings(params: ForestParams | ExtraTreesParams, randomCuts: b
 export const treeLearner: Learner<TreeParams, TreeEnsembleModel> = {
   family: "tree",
   params: TreeParamsSchema,
-  fit: (view, params, rng) =>
-    fitTrees("tree", view, { ...baseSettings(params), trees: 1, splitFeatures: 1, rowSample: 1, bootstrap: false, randomCuts: false }, rng),
+  fit: (view, params, rng, context) =>
+    fitTrees("tree", view, { ...baseSettings(params), trees: 1, splitFeatures: 1, rowSample: 1, bootstrap: false, randomCuts: false }, rng, context),
   predict: predictTrees,
   toJSON: treeModelToJSON,
   fromJSON: (json) => treeModelFromJSON("tree", json),
@@ -52,7 +52,7 @@ export const treeLearner: Learner<TreeParams, TreeEnsembleModel> = {
 export const forestLearner: Learner<ForestParams, TreeEnsembleModel> = {
   family: "forest",
   params: ForestParamsSchema,
-  fit: (view, params, rng) => fitTrees("forest", view, ensembleSettings(params, false), rng),
+  fit: (view, params, rng, context) => fitTrees("forest", view, ensembleSettings(params, false), rng, context),
   predict: predictTrees,
   toJSON: treeModelToJSON,
   fromJSON: (json) => treeModelFromJSON("forest", json),
@@ -62,7 +62,7 @@ export const forestLearner: Learner<ForestParams, TreeEnsembleModel> = {
 export const extraTreesLearner: Learner<ExtraTreesParams, TreeEnsembleModel> = {
   family: "extra_trees",
   params: ExtraTreesParamsSchema,
-  fit: (view, params, rng) => fitTrees("extra_trees", view, ensembleSettings(params, true), rng),
+  fit: (view, params, rng, context) => fitTrees("extra_trees", view, ensembleSettings(params, true), rng, context),
   predict: predictTrees,
   toJSON: treeModelToJSON,
   fromJSON: (json) => treeModelFromJSON("extra_trees", json),

@@ -14,7 +14,7 @@ import { BITSET_WORDS } from "./tree-model.js";
  * Categorical features: the node's categories are ordered by their rate of the positive class
  * (binary) or their mean target (regression) and the prefixes of that order are scanned; this
  * finds the best of all 2^(k−1) partitions for two classes and for squared error (Fisher 1958;
- * Breiman et al. 1984, CART §9.4). For more than two classes no such order exists; we scan one
+ * Breiman et al. 1984, CART). For more than two classes no such order exists; we scan one
  * order per class (the categories by their rate of class c, one-vs-rest) and keep the best, a
  * heuristic that costs C scans instead of 2^(k−1) partitions.
  */
@@ -69,6 +69,17 @@ export class SplitFinder {
     this.right = new Float64Array(width);
   }
 
+  /** Whether the best split so far leaves one class on each side (classification). */
+  splitsPurely(): boolean {
+    let leftClasses = 0;
+    let rightClasses = 0;
+    for (let k = 0; k < this.width; k++) {
+      if (this.leftStats[k] > 0) leftClasses++;
+      if (this.total[k] - this.leftStats[k] > 0) rightClasses++;
+    }
+    return leftClasses <= 1 && rightClasses <= 1;
+  }
+
   beginNode(total: Float64Array, rows: number): void {
     this.total = total;
     this.rows = rows;
@@ -82,8 +93,76 @@ export class SplitFinder {
     const values = this.loadBins(slot);
     if (values < 0) return false;
     if (categorical) this.scanCategories(feature, slot, values);
+    else if (this.width === 2 && this.criterion !== CRITERION_ENTROPY) this.scanThresholdsTwo(feature, slot, values);
     else this.scanThresholds(feature, slot, values);
     return true;
+  }
+
+  /**
+   * scanThresholds for two statistics (two classes under Gini, or squared error), with the
+   * proxies written out on scalars: this scan runs for every feature tried at every node.
+   */
+  private scanThresholdsTwo(feature: number, slot: number, values: number): void {
+    const bins = this.binList;
+    const hist = this.pool.values;
+    const base = slot * this.pool.slotSize;
+    const gini = this.criterion === CRITERION_GINI;
+    // Squared error: the proxy S²/W of [W, S] is the Gini form with weights (0, 1) over W.
+    const w0 = gini ? this.classWeight[0] : 0;
+    const w1 = gini ? this.classWeight[1] : 1;
+    const total0 = this.total[0];
+    const total1 = this.total[1];
+    const missing0 = this.missing[0];
+    const missing1 = this.missing[1];
+    const missingRows = this.missingRows;
+    const rows = this.rows;
+    const minLeaf = this.minLeaf;
+    let best = this.score;
+    let left0 = 0;
+    let left1 = 0;
+    let leftRows = 0;
+    for (let j = 0; j < values; j++) {
+      const o = base + bins[j] * 3;
+      leftRows += hist[o];
+      left0 += hist[o + 1];
+      left1 += hist[o + 2];
+      for (let side = 0; side < 2; side++) {
+        const withMissing = side === 1;
+        if (withMissing && missingRows === 0) break;
+        const rowsLeft = withMissing ? leftRows + missingRows : leftRows;
+        if (rowsLeft < minLeaf || rows - rowsLeft < minLeaf) continue;
+        const l0 = withMissing ? left0 + missing0 : left0;
+        const l1 = withMissing ? left1 + missing1 : left1;
+        const r0 = total0 - l0;
+        const r1 = total1 - l1;
+        let score: number;
+        if (gini) {
+          const a = w0 * l0;
+          const b = w1 * l1;
+          const c = w0 * r0;
+          const d = w1 * r1;
+          score = (a * a + b * b) / (a + b) + (c * c + d * d) / (c + d);
+        } else {
+          score = (l1 * l1) / l0 + (r1 * r1) / r0;
+        }
+        if (!(score > best)) continue;
+        best = score;
+        this.record(score, feature, cutBetween(bins, j, values), rowsLeft, l0, l1, withMissing);
+      }
+    }
+  }
+
+  private record(score: number, feature: number, threshold: number, rowsLeft: number, left0: number, left1: number, withMissing: boolean): void {
+    this.found = true;
+    this.updates++;
+    this.score = score;
+    this.feature = feature;
+    this.categorical = false;
+    this.threshold = threshold;
+    this.leftRows = rowsLeft;
+    this.leftStats[0] = left0;
+    this.leftStats[1] = left1;
+    this.missingLeft = this.missingRows === 0 ? rowsLeft >= this.rows - rowsLeft : withMissing;
   }
 
   /**
@@ -115,7 +194,7 @@ export class SplitFinder {
       const o = base + bins[j] * stride;
       cumulativeRows += hist[o];
       for (let k = 0; k < width; k++) cumulative[k] += hist[o + 1 + k];
-      this.considerCut(feature, bins[j], cumulativeRows, false);
+      this.considerCut(feature, cutBetween(bins, j, values), cumulativeRows, false);
     }
   }
 
@@ -242,4 +321,14 @@ function sortByKey(order: Uint8Array, count: number, keys: Float64Array, scratch
     to = swap;
   }
   if (from !== order) order.set(from.subarray(0, count));
+}
+
+/**
+ * The threshold bin of a cut after the node's j-th non-empty bin: half-way across the bins
+ * that are empty in this node, so rows unseen in training that fall in the gap go to the
+ * nearer side (as exact CART implementations cut half-way between neighbouring values).
+ * Training rows are split the same whatever bin of the gap is chosen.
+ */
+function cutBetween(bins: Uint8Array, j: number, values: number): number {
+  return j + 1 < values ? (bins[j] + bins[j + 1] - 1) >> 1 : bins[j];
 }

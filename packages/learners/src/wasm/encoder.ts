@@ -269,7 +269,14 @@ const wasm = (globalThis as unknown as { WebAssembly: WasmApi }).WebAssembly;
 
 export type WasmFunction = (...args: number[]) => number;
 
-/** Compiles `bytes` once (per `cache` entry) and instantiates it over a fresh memory of at least `bytes` bytes. */
+/** A WebAssembly memory holds at most 65,536 pages of 64 KiB (4 GiB). */
+export const WASM_MEMORY_LIMIT = 65_536 * 65_536;
+
+/**
+ * Compiles `module()` once (per `cache` entry) and instantiates it over a fresh memory of at least
+ * `memoryBytes` bytes. Addresses above 2 GiB reach JavaScript as negative i32 values; callers
+ * read pointers back with `>>> 0`.
+ */
 export function instantiate(module: () => Uint8Array, cache: { compiled?: object }, memoryBytes: number): { memory: WasmMemory; exports: Record<string, WasmFunction> } {
   cache.compiled ??= new wasm.Module(module());
   const memory = new wasm.Memory({ initial: Math.max(1, Math.ceil(memoryBytes / 65_536)) });
