@@ -108,6 +108,7 @@ async function timedRun(planPath: string, where: { local: number } | { workers: 
     runDir,
     workers: "local" in where ? where.local : undefined,
     runner: "workers" in where ? (setup) => createRedisRunner(url, setup, { namespace, onNotice: () => undefined }) : undefined,
+    finalStep: false,
   });
   const seconds = (performance.now() - start) / 1000;
   const cpu = process.cpuUsage(cpuBefore);

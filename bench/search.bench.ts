@@ -28,7 +28,7 @@ async function timedRun(plan: string, workers: number, label: string): Promise<{
   writeFileSync(planPath, plan);
   const runDir = join(dir, `run-${label}`);
   const start = performance.now();
-  await runSearch({ planPath, runDir, workers });
+  await runSearch({ planPath, runDir, workers, finalStep: false });
   const seconds = (performance.now() - start) / 1000;
   const store = RunStore.open(runDir, { readonly: true });
   const scores = store.foldScores();

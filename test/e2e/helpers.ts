@@ -47,7 +47,8 @@ export function nightshiftAsync(args: string[], cwd: string): ChildProcess {
   return spawn(process.execPath, [CLI, ...args], { cwd, stdio: ["ignore", "pipe", "pipe"] });
 }
 
-/** The board JSON without what legitimately differs between runs (timings). */
-export function withoutTimings(board: { rows: Array<Record<string, unknown>> }): unknown {
-  return { ...board, rows: board.rows.map(({ fit_s: _f, predict_s: _p, ...rest }) => rest) };
+/** The board JSON without what legitimately differs between runs (timings, the hold-out's opening time). */
+export function withoutTimings(board: { rows: Array<Record<string, unknown>>; holdout?: Record<string, unknown> | null }): unknown {
+  const holdout = board.holdout ? (({ opened_at: _o, ...rest }) => rest)(board.holdout) : board.holdout;
+  return { ...board, rows: board.rows.map(({ fit_s: _f, predict_s: _p, ...rest }) => rest), holdout };
 }

@@ -1,5 +1,5 @@
 import { join } from "node:path";
-import { FoldResultSchema } from "@nightshift/core";
+import { FoldResultSchema, JobResultSchema } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
 import { JOB_QUEUE, queueConnection, redisEndpoint } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
@@ -115,7 +115,7 @@ describe.skipIf(redis === null)("distributed mode recovers from failures", () =>
     const stalled = new Set<string>();
     const completedBy = new Map<string, string>();
     events.on("stalled", ({ jobId }) => stalled.add(jobId));
-    events.on("completed", ({ jobId, returnvalue }) => completedBy.set(jobId, FoldResultSchema.parse(returnvalue).worker));
+    events.on("completed", ({ jobId, returnvalue }) => completedBy.set(jobId, JobResultSchema.parse(returnvalue).worker));
     const signalled = new Map<Spawned, string>();
     events.on("active", ({ jobId }) => {
       void queue.getJob(jobId).then((job) => {

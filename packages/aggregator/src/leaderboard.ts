@@ -1,5 +1,5 @@
 import type { RunStore, TrialStatus } from "@nightshift/store";
-import type { Board, BoardRow, EnsembleSummary } from "./board.js";
+import type { Board, BoardRow, EnsembleSummary, Importance } from "./board.js";
 import { tiesWithBest } from "./corrected-t-test.js";
 
 /** Facts about a run the board needs, kept in the store's meta table by the coordinator. */
@@ -98,6 +98,7 @@ export function buildBoard(store: RunStore, options: { top?: number; family?: st
 
   const ensembles = store.artifacts("ensemble").map((a) => a.data as EnsembleSummary);
   const holdout = store.artifact("holdout");
+  const importance = store.artifact("importance");
   return {
     run: facts.runId,
     metric: facts.metric,
@@ -105,5 +106,6 @@ export function buildBoard(store: RunStore, options: { top?: number; family?: st
     rows: ranked,
     ensembles,
     holdout: holdout ? (holdout.data as Board["holdout"]) : null,
+    importance: importance ? (importance.data as Importance) : null,
   };
 }

@@ -5,5 +5,6 @@ export * from "./run-folder.js";
 export * from "./run-search.js";
 export * from "./scheduler.js";
 export * from "./trials.js";
+export * from "./final-step.js";
 export * from "./redis/redis-runner.js";
 export * from "./redis/pack-upload.js";

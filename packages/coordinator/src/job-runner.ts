@@ -1,14 +1,14 @@
-import type { FoldJob } from "@nightshift/core";
-import { type FoldOutcome, timeLimitMessage } from "@nightshift/worker";
+import type { Job } from "@nightshift/core";
+import { type OutcomeOf, timeLimitMessage } from "@nightshift/worker";
 
 /**
- * Where fold jobs run: local worker threads, or (later) Redis workers. The scheduler
- * only needs to hand over a job and await its outcome; `capacity` says how many jobs
+ * Where jobs run: local worker threads, or Redis workers. The scheduler and the final step
+ * only hand over a job (fold or refit) and await its outcome; `capacity` says how many jobs
  * to keep in flight.
  */
 export interface JobRunner {
   readonly capacity: number;
-  run(job: FoldJob): Promise<FoldOutcome>;
+  run<J extends Job>(job: J): Promise<OutcomeOf<J>>;
   close(): Promise<void>;
 }
 

@@ -1,11 +1,11 @@
 import { availableParallelism } from "node:os";
-import type { FoldJob } from "@nightshift/core";
-import { type FoldOutcome, THREAD_ENTRY, type ThreadSetup } from "@nightshift/worker";
+import type { Job } from "@nightshift/core";
+import { type OutcomeOf, THREAD_ENTRY, type ThreadSetup } from "@nightshift/worker";
 import { Piscina } from "piscina";
 import { type JobRunner, JobTimeoutError } from "./job-runner.js";
 
 /**
- * The embedded default: fold jobs on local worker threads (piscina). The dataset pack
+ * The embedded default: jobs (fold and refit) on local worker threads (piscina). The dataset pack
  * lives in a SharedArrayBuffer, so threads read it without a copy. A job over its time
  * limit is aborted, which terminates its thread; piscina starts a fresh one.
  */
@@ -22,12 +22,12 @@ export function createLocalPool(setup: ThreadSetup, workers: number = availableP
   });
   return {
     capacity: threads,
-    async run(job: FoldJob): Promise<FoldOutcome> {
-      if (job.timeoutSeconds === null) return (await pool.run(job)) as FoldOutcome;
+    async run<J extends Job>(job: J): Promise<OutcomeOf<J>> {
+      if (job.timeoutSeconds === null) return (await pool.run(job)) as OutcomeOf<J>;
       const controller = new AbortController();
       const timer = setTimeout(() => controller.abort(new JobTimeoutError(job.timeoutSeconds ?? 0)), job.timeoutSeconds * 1000);
       try {
-        return (await pool.run(job, { signal: controller.signal })) as FoldOutcome;
+        return (await pool.run(job, { signal: controller.signal })) as OutcomeOf<J>;
       } catch (error) {
         if (controller.signal.aborted) throw new JobTimeoutError(job.timeoutSeconds);
         throw error;

@@ -25,9 +25,10 @@ import { createLocalPool } from "./local-pool.js";
 import { canonicalJson, defaultRunFolder, runIdOf } from "./run-folder.js";
 import { type Progress, runSchedule, type ScheduleSummary } from "./scheduler.js";
 import { deriveTrial } from "./trials.js";
+import { type FinalStepResult, HOLDOUT_PACK_FILE, runFinalStep, TRAINING_PACK_FILE } from "./final-step.js";
 
 export const NIGHTSHIFT_VERSION = "0.1.0";
-export const DATASET_PACK_FILE = "dataset.pack";
+export const DATASET_PACK_FILE = TRAINING_PACK_FILE;
 
 export interface RunOptions {
   readonly planPath: string;
@@ -40,6 +41,8 @@ export interface RunOptions {
   readonly onProgress?: (progress: Progress) => void;
   readonly onStart?: (info: { runId: string; runDir: string; resumed: boolean; trials: number; folds: number; rows: number; metric: string }) => void;
   readonly shouldStop?: () => boolean;
+  /** Run the final step (ensembles, refits, hold-out, ensemble.json) when the search completes; default true. */
+  readonly finalStep?: boolean;
   /** Runs fold jobs somewhere else than on local threads (distributed mode). */
   readonly runner?: (setup: { pack: Uint8Array; foldTests: Uint32Array[]; metric: string }) => JobRunner;
 }
@@ -47,6 +50,8 @@ export interface RunOptions {
 export interface RunResult extends ScheduleSummary {
   readonly runId: string;
   readonly runDir: string;
+  /** The final step's outcome; null when the search did not complete (it runs on the resume that completes it). */
+  readonly finalStep: FinalStepResult | null;
 }
 
 /** Everything fixed before the first fold job: plan, data, folds, trials. */
@@ -154,6 +159,12 @@ export async function runSearch(options: RunOptions): Promise<RunResult> {
     const pack = packDataset(training, { shared: true });
     const packFile = join(runDir, DATASET_PACK_FILE);
     if (!existsSync(packFile) || readFileSync(packFile).length !== pack.byteLength) writeFileSync(packFile, pack);
+    // The sealed rows stay in the run folder for the final step; no worker is ever given this file.
+    if (prepared.holdoutRows.length > 0) {
+      const holdoutPack = packDataset(subsetDataset(prepared.dataset, prepared.holdoutRows));
+      const holdoutFile = join(runDir, HOLDOUT_PACK_FILE);
+      if (!existsSync(holdoutFile) || readFileSync(holdoutFile).length !== holdoutPack.byteLength) writeFileSync(holdoutFile, holdoutPack);
+    }
     store.saveFolds(foldTests.map((test, i) => ({ repeat: Math.floor(i / plan.folds.k), index: i % plan.folds.k, test })));
     if (!store.getMeta("holdout_rows")) store.setMeta("holdout_rows", JSON.stringify(Array.from(prepared.holdoutRows)));
     const trials = Array.from({ length: plan.budget.trials }, (_, i) => deriveTrial(plan, i));
@@ -165,6 +176,7 @@ export async function runSearch(options: RunOptions): Promise<RunResult> {
     const setup = { pack, foldTests, metric: metric.name };
     const runner = options.runner ? options.runner(setup) : createLocalPool(setup, options.workers);
     let summary: ScheduleSummary;
+    let finalStep: FinalStepResult | null = null;
     try {
       summary = await runSchedule(
         store,
@@ -183,12 +195,14 @@ export async function runSearch(options: RunOptions): Promise<RunResult> {
         },
         { onProgress: options.onProgress, shouldStop: options.shouldStop },
       );
+      store.setMeta("state", summary.completed ? "finished" : summary.stoppedBy);
+      store.addEvent(summary.completed ? "run_finished" : "run_stopped", { run: runId, stoppedBy: summary.stoppedBy, foldsRun: summary.foldsRun });
+      // A completed search goes on to its final step on the same runner; a finished run resumed finds it done.
+      if (summary.completed && options.finalStep !== false) finalStep = await runFinalStep({ runDir, store, runner, version: NIGHTSHIFT_VERSION });
     } finally {
       await runner.close();
     }
-    store.setMeta("state", summary.completed ? "finished" : summary.stoppedBy);
-    store.addEvent(summary.completed ? "run_finished" : "run_stopped", { run: runId, stoppedBy: summary.stoppedBy, foldsRun: summary.foldsRun });
-    return { ...summary, runId, runDir };
+    return { ...summary, runId, runDir, finalStep };
   } finally {
     store.close();
   }

@@ -209,6 +209,7 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
     const trial = trialsById.get(key.trial) as Trial;
     return {
       schema: JOB_SCHEMA_VERSION,
+      kind: "fold",
       node: NODE_MAJOR,
       run: spec.runId,
       dataset: spec.datasetFingerprint,

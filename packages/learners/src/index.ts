@@ -6,3 +6,4 @@ export * from "./trees/index.js";
 export * from "./boosted/index.js";
 export * from "./linear/index.js";
 export * from "./knn/index.js";
+export * from "./wasm/encoder.js";

@@ -1,5 +1,7 @@
 export * from "./fold-context.js";
 export * from "./fold-job.js";
+export * from "./refit-job.js";
+export * from "./run-job.js";
 export type { ThreadSetup } from "./thread-entry.js";
 
 /** Path of the worker-thread task module, for the local pool. */

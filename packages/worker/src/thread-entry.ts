@@ -1,8 +1,8 @@
 import { workerData } from "node:worker_threads";
-import { FoldJobSchema, metricByName, unpackDataset } from "@nightshift/core";
+import { JobSchema, metricByName, unpackDataset } from "@nightshift/core";
 import { createFoldContext, type FoldContext } from "./fold-context.js";
-import { type FoldOutcome, runFoldJob } from "./fold-job.js";
 import { otherNodeMajor } from "./node-major.js";
+import { type JobOutcome, runJob } from "./run-job.js";
 
 /** What the local pool hands each thread once: the shared dataset pack and the folds. */
 export interface ThreadSetup {
@@ -23,9 +23,9 @@ function setup(): FoldContext {
 }
 
 /** Piscina task: validate the job (workers run data, not code), then run it. */
-export default function foldTask(raw: unknown): FoldOutcome {
-  const job = FoldJobSchema.parse(raw);
+export default function jobTask(raw: unknown): JobOutcome {
+  const job = JobSchema.parse(raw);
   const refusal = otherNodeMajor(job.node);
   if (refusal !== null) throw new Error(refusal);
-  return runFoldJob(setup(), job);
+  return runJob(setup(), job);
 }

@@ -82,6 +82,8 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
               : `nightshift: stopped; resume with: nightshift run ${options.planPath} --run-dir ${result.runDir}`,
           );
       }
+      if (result.finalStep?.status === "no_ensemble" && !options.quiet) console.error(`nightshift: ${result.finalStep.message}`);
+      for (const note of result.finalStep?.notes ?? []) if (/refit/.test(note) && !options.quiet) console.error(`nightshift: ${note}`);
       const allFailed = board.rows.length > 0 && board.rows.every((r) => r.status === "failed" || r.status === "timed_out");
       if (allFailed) console.error("nightshift: every trial failed; see the messages on the board (nightshift board " + result.runDir + ")");
     } finally {

@@ -5,9 +5,9 @@ import type { Redis } from "ioredis";
 /**
  * Puts a dataset pack on Redis under its fingerprint (the sha256 of its content), unless an
  * intact-sized copy is already there, and (re)sets its expiry. Content addressing makes the
- * upload idempotent and shared: runs on the same rows share one copy, and a second pack of a
- * run (the hold-out rows, at the final step) goes up the same way. Workers check the hash of
- * what they fetch (`PackCache`). Returns the fingerprint.
+ * upload idempotent and shared: runs on the same rows share one copy. (Only training rows go up:
+ * the final step's refit jobs fit on them too, and the coordinator scores the hold-out itself.)
+ * Workers check the hash of what they fetch (`PackCache`). Returns the fingerprint.
  */
 export async function uploadPack(redis: Redis, namespace: string, pack: Uint8Array, keepMs: number): Promise<string> {
   const fingerprint = unpackDataset(pack).fingerprint;

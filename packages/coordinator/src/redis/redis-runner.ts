@@ -1,4 +1,5 @@
-import { type FoldJob, float32FromBase64, FoldResultSchema, foldJobId, NODE_MAJOR, unpackDataset } from "@nightshift/core";
+import { type FoldJob, float32FromBase64, FoldResultSchema, foldJobId, isRefitJob, type Job, NODE_MAJOR, type RefitJob, RefitResultSchema, refitJobId, unpackDataset } from "@nightshift/core";
+import type { ModelJson } from "@nightshift/learners";
 import {
   checkNamespace,
   DEFAULT_NAMESPACE,
@@ -6,6 +7,9 @@ import {
   FOLD_JOB_NAME,
   type FoldOutcome,
   JOB_ATTEMPTS,
+  type JobOutcome,
+  type OutcomeOf,
+  type RefitOutcome,
   JOB_QUEUE,
   packKey,
   queueConnection,
@@ -38,8 +42,8 @@ export interface RedisRunnerOptions {
 }
 
 interface Waiting {
-  readonly job: FoldJob;
-  readonly resolve: (outcome: FoldOutcome) => void;
+  readonly job: Job;
+  readonly resolve: (outcome: JobOutcome) => void;
 }
 
 /** Jobs kept queued ahead per worker thread, so a thread finds its next job waiting. */
@@ -114,12 +118,12 @@ class RedisRunner implements JobRunner {
     return Math.max(MIN_IN_FLIGHT, AHEAD * this.slots);
   }
 
-  run(job: FoldJob): Promise<FoldOutcome> {
+  run<J extends Job>(job: J): Promise<OutcomeOf<J>> {
     if (this.closed) return Promise.reject(new Error("the Redis runner is closed"));
     this.bind(job);
-    const id = foldJobId(job.run, job.trial, job.fold);
+    const id = isRefitJob(job) ? refitJobId(job.run, job.trial) : foldJobId(job.run, job.trial, (job as FoldJob).fold);
     return new Promise((resolve) => {
-      this.waiting.set(id, { job, resolve });
+      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>) });
       void this.enqueue(id, job);
     });
   }
@@ -159,7 +163,7 @@ class RedisRunner implements JobRunner {
   }
 
   /** Every job of a runner belongs to one run on one dataset. */
-  private bind(job: FoldJob): void {
+  private bind(job: Job): void {
     if (!this.bound) {
       const packed = unpackDataset(this.setup.pack).fingerprint;
       if (packed !== job.dataset) throw new Error(`job ${job.run}: its dataset ${job.dataset.slice(0, 12)} is not the uploaded pack ${packed.slice(0, 12)}`);
@@ -190,7 +194,7 @@ class RedisRunner implements JobRunner {
     if (refused) throw refused;
   }
 
-  private async enqueue(id: string, job: FoldJob): Promise<void> {
+  private async enqueue(id: string, job: Job): Promise<void> {
     await this.patiently(`queueing job ${id}`, async () => {
       await this.ensureUploaded();
       await this.queue.add(FOLD_JOB_NAME, job, {
@@ -234,7 +238,8 @@ class RedisRunner implements JobRunner {
     });
   }
 
-  private decode(job: FoldJob, returnvalue: unknown): FoldOutcome {
+  private decode(job: Job, returnvalue: unknown): JobOutcome {
+    if (isRefitJob(job)) return this.decodeRefit(job, returnvalue);
     const parsed = FoldResultSchema.safeParse(returnvalue);
     if (!parsed.success) return this.failed(job, `a worker sent a result that does not match the result schema: ${parsed.error.issues.map((i) => `${i.path.join(".") || "(result)"}: ${i.message}`).join("; ")}`);
     const result = parsed.data;
@@ -248,9 +253,18 @@ class RedisRunner implements JobRunner {
     return { trial: job.trial, fold: job.fold, score: result.score, outOfFold, fitSeconds: result.fitSeconds, predictSeconds: result.predictSeconds, error: result.error };
   }
 
-  private failed(job: FoldJob, reason: string): FoldOutcome {
+  private decodeRefit(job: RefitJob, returnvalue: unknown): RefitOutcome {
+    const parsed = RefitResultSchema.safeParse(returnvalue);
+    if (!parsed.success) return this.failed(job, `a worker sent a result that does not match the refit result schema: ${parsed.error.issues.map((i) => `${i.path.join(".") || "(result)"}: ${i.message}`).join("; ")}`) as RefitOutcome;
+    const result = parsed.data;
+    if (result.trial !== job.trial) return this.failed(job, `a worker sent the refit of trial ${result.trial} for this job`) as RefitOutcome;
+    return { kind: "refit", trial: job.trial, model: result.model as ModelJson | null, fitSeconds: result.fitSeconds, error: result.error };
+  }
+
+  private failed(job: Job, reason: string): JobOutcome {
     const error = /stalled more than allowable limit/.test(reason) ? "the workers running this job died each time it ran (out of memory?); it was not tried again" : reason;
-    return { trial: job.trial, fold: job.fold, score: null, outOfFold: null, fitSeconds: 0, predictSeconds: 0, error };
+    if (isRefitJob(job)) return { kind: "refit", trial: job.trial, model: null, fitSeconds: 0, error };
+    return { trial: job.trial, fold: (job as FoldJob).fold, score: null, outOfFold: null, fitSeconds: 0, predictSeconds: 0, error };
   }
 
   /** Looks up jobs whose end the event stream may not have told (missed, trimmed, or before a restart). */

@@ -1,4 +1,5 @@
 import { z } from "zod";
+import { FamilyNameSchema } from "./families.js";
 
 /**
  * What a remote worker sends back for a fold job. The coordinator validates it before
@@ -24,6 +25,27 @@ export const FoldResultSchema = z
   })
   .refine((r) => r.error !== null || (r.score !== null && r.outOfFold !== null), { message: "a result without an error must carry a score and predictions" });
 export type FoldResult = z.infer<typeof FoldResultSchema>;
+
+/**
+ * What a remote worker sends back for a refit job: the model fitted on all training rows, as
+ * its family's plain JSON (data the family's `fromJSON` reads, never code), or the error.
+ */
+export const RefitResultSchema = z
+  .strictObject({
+    schema: z.literal(RESULT_SCHEMA_VERSION),
+    kind: z.literal("refit"),
+    trial: z.number().int().nonnegative(),
+    model: z.looseObject({ family: FamilyNameSchema }).nullable(),
+    fitSeconds: z.number().nonnegative(),
+    error: z.string().max(20_000).nullable(),
+    worker: z.string().max(200),
+  })
+  .refine((r) => r.error !== null || r.model !== null, { message: "a refit result without an error must carry a model" });
+export type RefitResult = z.infer<typeof RefitResultSchema>;
+
+/** Any result a remote worker sends back (the job's kind says which one to expect). */
+export const JobResultSchema = z.union([FoldResultSchema, RefitResultSchema]);
+export type JobResult = z.infer<typeof JobResultSchema>;
 
 const littleEndian = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
 

@@ -87,8 +87,17 @@ export class FunctionBody {
   }
 
   // Memory (§5.4.6).
+  i32Load(offset: number): this {
+    return this.op(0x28, ...this.memarg(2, offset));
+  }
+  f32Load(offset: number): this {
+    return this.op(0x2a, ...this.memarg(2, offset));
+  }
   f64Load(offset: number): this {
     return this.op(0x2b, ...this.memarg(3, offset));
+  }
+  i32Load8U(offset: number): this {
+    return this.op(0x2d, ...this.memarg(0, offset));
   }
   i32Store(offset: number): this {
     return this.op(0x36, ...this.memarg(2, offset));
@@ -116,6 +125,26 @@ export class FunctionBody {
   i32Sub(): this {
     return this.op(0x6b);
   }
+  i32GeS(): this {
+    return this.op(0x4e);
+  }
+  i32Eq(): this {
+    return this.op(0x46);
+  }
+  f64Const(value: number): this {
+    const bytes = new Uint8Array(new Float64Array([value]).buffer);
+    return this.op(0x44, ...bytes);
+  }
+  f64Min(): this {
+    return this.op(0xa4);
+  }
+  f64Max(): this {
+    return this.op(0xa5);
+  }
+  /** Parametric select (§5.4.3): c ? first : second, for [first, second, c] on the stack. */
+  select(): this {
+    return this.op(0x1b);
+  }
   i32Mul(): this {
     return this.op(0x6c);
   }
@@ -127,6 +156,24 @@ export class FunctionBody {
   }
   f64Add(): this {
     return this.op(0xa0);
+  }
+  f64Sub(): this {
+    return this.op(0xa1);
+  }
+  f64Mul(): this {
+    return this.op(0xa2);
+  }
+  f64Div(): this {
+    return this.op(0xa3);
+  }
+  f64ConvertI32S(): this {
+    return this.op(0xb7);
+  }
+  i32TruncF64S(): this {
+    return this.op(0xaa);
+  }
+  f64PromoteF32(): this {
+    return this.op(0xbb);
   }
 
   // Vector (§5.4.8).

@@ -1,4 +1,4 @@
-import { type FoldJob, FoldJobSchema } from "@nightshift/core";
+import { type Job, JobSchema } from "@nightshift/core";
 import { learnerFor } from "@nightshift/learners";
 import { otherNodeMajor } from "../node-major.js";
 
@@ -17,14 +17,14 @@ export class RefusedJob extends Error {
  * major, and carry parameters the family's own schema accepts. Nothing in a job is
  * evaluated; a refused job never reaches a thread.
  *
- * The one schema checked here: when the refit job kind joins the fold job, this becomes
- * the job union (`JobSchema`), and `fold-thread.ts` calls the matching dispatch.
+ * The one schema checked here is the job union (`JobSchema`: fold and refit jobs), and
+ * `fold-thread.ts` runs what it accepts through the one dispatch, `runJob`.
  */
-export function acceptJob(raw: unknown): FoldJob {
+export function acceptJob(raw: unknown): Job {
   // Schemas may drop a "__proto__" key silently (a record does); a job carrying one is refused outright.
   const protoAt = protoKeyPath(raw, []);
   if (protoAt !== null) throw new RefusedJob(`the job has a "__proto__" key at ${protoAt.length > 0 ? protoAt.join(".") : "its top level"}`);
-  const parsed = FoldJobSchema.safeParse(raw);
+  const parsed = JobSchema.safeParse(raw);
   if (!parsed.success) throw new RefusedJob(`the job does not match the job schema: ${parsed.error.issues.map((i) => `${i.path.join(".") || "(job)"}: ${i.message}`).join("; ")}`);
   const job = parsed.data;
   const otherNode = otherNodeMajor(job.node);

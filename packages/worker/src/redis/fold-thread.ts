@@ -1,6 +1,6 @@
-import { type FoldJob, metricByName, unpackDataset } from "@nightshift/core";
+import { type Job, metricByName, unpackDataset } from "@nightshift/core";
 import { createFoldContext, type FoldContext } from "../fold-context.js";
-import { type FoldOutcome, runFoldJob } from "../fold-job.js";
+import { type JobOutcome, runJob } from "../run-job.js";
 
 /**
  * One job for a thread of a queue worker. The pack and the fold rows live in
@@ -15,7 +15,7 @@ export interface FoldTask {
   readonly foldOffsets: readonly number[];
   readonly metric: string;
   /** Already accepted by `acceptJob` in the worker's main thread. */
-  readonly job: FoldJob;
+  readonly job: Job;
 }
 
 /** Contexts of the runs this thread served last; a worker serves every run on its Redis. */
@@ -35,7 +35,7 @@ function contextFor(task: FoldTask): FoldContext {
   return context;
 }
 
-/** Piscina task. The one dispatch: with the refit job kind it becomes `runJob(context, job)`. */
-export default function foldThreadTask(task: FoldTask): FoldOutcome {
-  return runFoldJob(contextFor(task), task.job);
+/** Piscina task: the one dispatch, `runJob(context, job)`, for fold and refit jobs alike. */
+export default function foldThreadTask(task: FoldTask): JobOutcome {
+  return runJob(contextFor(task), task.job);
 }

@@ -1,9 +1,9 @@
 import { availableParallelism, hostname } from "node:os";
-import { type FoldJob, type FoldResult, float32ToBase64, NODE_MAJOR, RESULT_SCHEMA_VERSION } from "@nightshift/core";
+import { type FoldResult, float32ToBase64, type Job as NightshiftJob, NODE_MAJOR, type RefitResult, RESULT_SCHEMA_VERSION } from "@nightshift/core";
 import { type Job, UnrecoverableError, WaitingError, Worker } from "bullmq";
 import { Redis } from "ioredis";
 import { Piscina } from "piscina";
-import type { FoldOutcome } from "../fold-job.js";
+import { isRefitOutcome, type JobOutcome } from "../run-job.js";
 import { timeLimitMessage } from "../time-limit.js";
 import { acceptJob, RefusedJob } from "./accept-job.js";
 import type { FoldTask } from "./fold-thread.js";
@@ -100,7 +100,7 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
     return pending;
   };
 
-  const runOnThread = async (jobId: string, task: FoldTask): Promise<FoldOutcome | "released"> => {
+  const runOnThread = async (jobId: string, task: FoldTask): Promise<JobOutcome | "released"> => {
     const { job } = task;
     const controller = new AbortController();
     inProgress.set(jobId, controller);
@@ -113,7 +113,7 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
             controller.abort();
           }, job.timeoutSeconds * 1000);
     try {
-      return (await threads.run(task, { signal: controller.signal })) as FoldOutcome;
+      return (await threads.run(task, { signal: controller.signal })) as JobOutcome;
     } catch (error) {
       if (timedOut) return failedOutcome(job, `timed out: ${timeLimitMessage(job.timeoutSeconds ?? 0)}`, job.timeoutSeconds ?? 0);
       if (releasing) return "released";
@@ -124,8 +124,8 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
     }
   };
 
-  const processJob = async (queued: Job, token?: string): Promise<FoldResult> => {
-    let job: FoldJob;
+  const processJob = async (queued: Job, token?: string): Promise<FoldResult | RefitResult> => {
+    let job: NightshiftJob;
     try {
       job = acceptJob(queued.data);
     } catch (error) {
@@ -150,6 +150,8 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
       await queued.moveToWait(token);
       throw new WaitingError();
     }
+    if (isRefitOutcome(outcome))
+      return { schema: RESULT_SCHEMA_VERSION, kind: "refit", trial: outcome.trial, model: outcome.error === null ? outcome.model : null, fitSeconds: outcome.fitSeconds, error: outcome.error, worker: id };
     return {
       schema: RESULT_SCHEMA_VERSION,
       trial: outcome.trial,
@@ -208,7 +210,8 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
   };
 }
 
-function failedOutcome(job: FoldJob, message: string, fitSeconds = 0): FoldOutcome {
+function failedOutcome(job: NightshiftJob, message: string, fitSeconds = 0): JobOutcome {
+  if (job.kind === "refit") return { kind: "refit", trial: job.trial, model: null, fitSeconds, error: message };
   return { trial: job.trial, fold: job.fold, score: null, outOfFold: null, fitSeconds, predictSeconds: 0, error: message };
 }
 
