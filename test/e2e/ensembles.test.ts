@@ -3,10 +3,14 @@ import { join } from "node:path";
 import { type ExportedEnsemble, loadEnsemble } from "@nightshift/aggregator";
 import { averagePrecision, unpackDataset } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
-import { parse } from "csv-parse/sync";
+import Papa from "papaparse";
 import { stringify } from "csv-stringify/sync";
 import { beforeAll, describe, expect, it } from "vitest";
 import { nightshift, SMALL_FAMILIES, tempDir, writePlan, writeSmallTurbines } from "./helpers.js";
+
+function readCsv(text: string): Row[] {
+  return Papa.parse<Row>(text, { header: true, skipEmptyLines: true }).data;
+}
 
 const PLAN = `name: ensembles
 seed: 7
@@ -56,7 +60,7 @@ beforeAll(() => {
   const second = nightshift(["run", planPath, "--run-dir", join(dir, "two"), "--workers", "2", "--json"], dir);
   expect(second.code).toBe(0);
   boardTwo = JSON.parse(second.stdout) as Board;
-  csvRows = parse(readFileSync(join(dir, "turbines.csv"), "utf8"), { columns: true }) as Row[];
+  csvRows = readCsv(readFileSync(join(dir, "turbines.csv"), "utf8"));
   featureColumns = Object.keys(csvRows[0]).filter((c) => c !== "failed_within_30d");
 });
 
@@ -107,7 +111,7 @@ describe("ensembles, the hold-out and the exported predictor", () => {
     const r = nightshift(["predict", one, "new.csv", "-o", "out.csv"], dir);
     expect(r.code).toBe(0);
     expect(r.stderr).toMatch(/wrote 240 predictions to out\.csv/);
-    const out = parse(readFileSync(join(dir, "out.csv"), "utf8"), { columns: true }) as Row[];
+    const out = readCsv(readFileSync(join(dir, "out.csv"), "utf8"));
     expect(Object.keys(out[0])).toEqual(["probability_yes", "label"]);
     const probabilities = Float64Array.from(out, (o) => Number(o.probability_yes));
 
@@ -129,7 +133,7 @@ describe("ensembles, the hold-out and the exported predictor", () => {
     const r = nightshift(["predict", one, "unseen.csv", "--threshold", "0.3"], dir);
     expect(r.code).toBe(0);
     expect(r.stderr).toMatch(/column "model": 3 values were categories not seen in training/);
-    const out = parse(r.stdout, { columns: true }) as Row[];
+    const out = readCsv(r.stdout);
     expect(out).toHaveLength(20);
     expect(out.every((o) => o.label === (Number(o.probability_yes) >= 0.3 ? "yes" : "no"))).toBe(true);
   });
