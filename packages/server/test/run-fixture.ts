@@ -43,7 +43,7 @@ families:
   );
   const runsDir = join(dir, "runs");
   const folder = join(runsDir, id);
-  const r = spawnSync(process.execPath, [CLI, "run", "short.plan.yaml", "--run-dir", folder, "--quiet"], { cwd: dir, encoding: "utf8" });
+  const r = spawnSync(process.execPath, [CLI, "run", "short.plan.yaml", "--run-dir", folder, "--quiet", "--search-only"], { cwd: dir, encoding: "utf8" });
   if (r.status !== 0) throw new Error(`the fixture run failed (${r.status}): ${r.stderr}`);
   return { runsDir, id, folder };
 }

@@ -17,6 +17,8 @@ export interface RunVerbOptions {
   readonly quiet: boolean;
   readonly trials?: number;
   readonly top?: number;
+  /** Search only: leave the ensembles, refits and the hold-out for a later `run` of the finished run. */
+  readonly searchOnly?: boolean;
   /** Fold jobs go to this Redis for `nightshift worker` processes, instead of local threads. */
   readonly redis?: { readonly endpoint: RedisEndpoint; readonly namespace: string };
 }
@@ -52,6 +54,7 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
       runsDir: options.runsDir,
       workers: options.workers,
       trials: options.trials,
+      finalStep: !options.searchOnly,
       shouldStop: () => stopping,
       runner: redis
         ? (setup) => createRedisRunner(redis.endpoint, setup, { namespace: redis.namespace, onNotice: (message) => process.stderr.write(`nightshift: ${message}\n`) })
@@ -99,7 +102,7 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
 
 export const runVerb: Verb = {
   name: "run",
-  usage: "run <plan.yaml> [--run-dir DIR] [--workers N | --redis URL [--namespace NAME]] [--json] [--quiet]",
+  usage: "run <plan.yaml> [--run-dir DIR] [--workers N | --redis URL [--namespace NAME]] [--search-only] [--json] [--quiet]",
   summary: "run (or resume) a plan's search on local worker threads, or on workers sharing a Redis",
   async run(args) {
     const { values, positionals } = parseVerbArgs(
@@ -114,6 +117,7 @@ export const runVerb: Verb = {
         json: { type: "boolean", default: false },
         quiet: { type: "boolean", default: false },
         top: { type: "string" },
+        "search-only": { type: "boolean", default: false },
       },
       { min: 1, max: 1, names: "one plan file: nightshift run <plan.yaml>" },
     );
@@ -127,6 +131,7 @@ export const runVerb: Verb = {
       json: values.json ?? false,
       quiet: values.quiet ?? false,
       top: positiveInteger("run", "top", values.top),
+      searchOnly: values["search-only"] ?? false,
       redis:
         values.redis === undefined
           ? undefined
