@@ -35,9 +35,37 @@ export function parseParams<T>(family: FamilyName, schema: z.ZodType<T>, raw: un
     }
     const path = joinPath(family, issue.path);
     paths.push(path);
-    messages.push(`${path}: ${issue.message} (got ${describe(valueAt(raw, issue.path))})`);
+    messages.push(`${path}: ${describeIssue(issue, valueAt(raw, issue.path))}`);
   }
   throw new ParamError(family, paths, messages);
+}
+
+/**
+ * What is wrong and what was given. A family's schema may carry its own wording (e.g. "must be
+ * an integer in 1..5000"); zod's built-in wording ("Too small: expected ...") is rephrased as
+ * the allowed range.
+ */
+function describeIssue(issue: z.core.$ZodIssue, value: unknown): string {
+  const got = `(got ${describe(value)})`;
+  const builtIn = /^(Too small|Too big|Invalid)/.test(issue.message);
+  let text = issue.message;
+  if (builtIn) {
+    switch (issue.code) {
+      case "too_small":
+        text = `must be ${issue.inclusive ? ">=" : ">"} ${String(issue.minimum)}`;
+        break;
+      case "too_big":
+        text = `must be ${issue.inclusive ? "<=" : "<"} ${String(issue.maximum)}`;
+        break;
+      case "invalid_value":
+        text = `must be one of ${issue.values.map((v) => describe(v)).join(", ")}`;
+        break;
+      case "invalid_type":
+        text = `must be ${issue.expected === "int" ? "an integer" : `a ${issue.expected}`}`;
+        break;
+    }
+  }
+  return text.includes("(got ") ? text : `${text} ${got}`;
 }
 
 function joinPath(family: FamilyName, path: ReadonlyArray<PropertyKey>): string {

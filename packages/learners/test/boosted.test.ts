@@ -1,6 +1,6 @@
 import { allRows, createRng, InputError } from "@nightshift/core";
 import { describe, expect, it } from "vitest";
-import { type BoostedParams, boostedLearner, FitError, parseBoostedParams } from "../src/index.js";
+import { type BoostedParams, boostedLearner, FitError, ParamError, parseBoostedParams } from "../src/index.js";
 import { categorical, classes, noisyBinary, numeric, trainView, values } from "./boosted-data.js";
 import { averagePrecision, column } from "./boosted-scores.js";
 import { validationSplit } from "../src/boosted/validation-split.js";
@@ -34,8 +34,8 @@ describe("boosted parameters", () => {
     expect(() => parseBoostedParams({ early_stop: 0.7 })).toThrow("boosted.early_stop: must be in [0, 0.5] (0 = off) (got 0.7)");
     expect(() => parseBoostedParams({ class_weight: "auto" })).toThrow('boosted.class_weight: must be one of none, balanced (got "auto")');
     expect(() => parseBoostedParams({ rounds: "many" })).toThrow('boosted.rounds: must be an integer in [1, 10000] (got "many")');
-    expect(() => parseBoostedParams({ trees: 10 })).toThrow(/^boosted\.trees: unknown parameter \(known: rounds, learning_rate/);
-    expect(() => parseBoostedParams({ bins: 256 })).toThrow(InputError);
+    expect(() => parseBoostedParams({ trees: 10 })).toThrow(/^boosted\.trees: unknown parameter \(allowed: rounds, learning_rate/);
+    expect(() => parseBoostedParams({ bins: 256 })).toThrow(ParamError);
   });
 });
 

@@ -1,6 +1,7 @@
-import { allRows, createRng, InputError } from "@nightshift/core";
+import { allRows, createRng } from "@nightshift/core";
 import { describe, expect, it } from "vitest";
 import { FitError } from "../src/learner.js";
+import { ParamError } from "../src/params.js";
 import { knnLearner, nearestNeighbours, parseFamilyParams, screeningMargin } from "../src/index.js";
 import { averagePrecision, categorical, classView, column, numeric, valueView } from "./linear-knn-fixtures.js";
 
@@ -177,7 +178,7 @@ describe("knn family", () => {
         parseFamilyParams("knn", knnLearner.params, input);
         return "accepted";
       } catch (error) {
-        expect(error).toBeInstanceOf(InputError);
+        expect(error).toBeInstanceOf(ParamError);
         return (error as Error).message;
       }
     };

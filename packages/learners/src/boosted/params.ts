@@ -1,6 +1,5 @@
-import { InputError } from "@nightshift/core";
 import { z } from "zod";
-import type { FamilyName } from "../learner.js";
+import { parseParams } from "../params.js";
 
 /** How an offending input is shown inside a message: short, JSON-like. */
 function shown(input: unknown): string {
@@ -54,24 +53,7 @@ export const BoostedParamsSchema = z.strictObject({
 
 export type BoostedParams = z.infer<typeof BoostedParamsSchema>;
 
-const KNOWN = Object.keys(BoostedParamsSchema.shape).join(", ");
-
-/** One zod issue as `family.parameter: message` (unknown keys name themselves and the allowed ones). */
-export function formatParamIssue(family: FamilyName, issue: z.core.$ZodIssue, known: string = KNOWN): string {
-  if (issue.code === "unrecognized_keys") {
-    const keys = issue.keys.map((key) => `${family}.${key}`).join(", ");
-    return `${keys}: unknown parameter${issue.keys.length > 1 ? "s" : ""} (known: ${known})`;
-  }
-  const path = issue.path.map(String).join(".");
-  return `${path === "" ? family : `${family}.${path}`}: ${issue.message}`;
-}
-
-/** Validates user-given parameters and fills defaults; a mistake is an InputError naming the parameter. */
+/** Validates user-given parameters and fills defaults; a mistake is a ParamError naming the parameter. */
 export function parseBoostedParams(input: unknown): BoostedParams {
-  const result = BoostedParamsSchema.safeParse(input ?? {});
-  if (result.success) return result.data;
-  const issue = result.error.issues[0];
-  const message = formatParamIssue("boosted", issue);
-  const cut = message.indexOf(": ");
-  throw new InputError(message.slice(0, cut), message.slice(cut + 2));
+  return parseParams("boosted", BoostedParamsSchema, input);
 }
