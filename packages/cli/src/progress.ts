@@ -13,7 +13,7 @@ function duration(seconds: number | null): string {
 export function createProgressBar(metric: string): { update(p: Progress): void; stop(): void } {
   const bar = new cliProgress.SingleBar(
     {
-      format: "{bar} {value}/{total} folds | trials {trials} | {rate} folds/s | best {best} | ETA {eta}",
+      format: "{bar} {value}/{total} folds | trials {trials} | {rate} folds/s | best {best} | ETA {remaining}",
       stream: process.stderr,
       hideCursor: true,
       noTTYOutput: true,
@@ -29,7 +29,7 @@ export function createProgressBar(metric: string): { update(p: Progress): void; 
         trials: `${p.trialsFinished}/${p.trialsPlanned}`,
         rate: p.foldsPerSecond.toFixed(2),
         best: p.best ? `${metric} ${p.best.score.toFixed(4)} (trial ${p.best.trial})` : "-",
-        eta: duration(p.etaSeconds),
+        remaining: duration(p.etaSeconds),
       };
       if (!started) {
         bar.start(p.foldsPlanned, p.foldsDone, payload);
