@@ -16,12 +16,10 @@ export function registerVerb(verb: Verb): void {
 }
 
 export function helpText(): string {
-  const width = Math.max(...verbs.map((v) => v.usage.length), 10);
-  const lines = verbs.map((v) => `  ${v.usage.padEnd(width)}  ${v.summary}`);
+  const lines = verbs.flatMap((v) => [`  nightshift ${v.usage}`, `      ${v.summary}`]);
   return [
     "nightshift: hyperparameter-and-ensemble search for tabular machine learning",
     "",
-    "usage:",
     ...(lines.length > 0 ? lines : ["  (no verbs yet)"]),
     "",
     "Exit codes: 0 ok, 1 internal failure, 2 bad input (plan, data, arguments).",
