@@ -2,6 +2,7 @@ import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { parseCsvDataset } from "../../packages/core/src/csv/read-csv.js";
 import { InputError } from "../../packages/core/src/errors.js";
+import { MISSING_CODE } from "../../packages/core/src/frame.js";
 import { parsePlan } from "../../packages/core/src/plan/read-plan.js";
 
 /** A call on small input that takes longer than this is treated as a hang. */
@@ -129,6 +130,117 @@ describe("malformed plans", () => {
         if (/not valid YAML/.test(outcome.error.message)) expect(outcome.error.message).toMatch(/^fuzz\.plan\.yaml:\d+:\d+: /);
       }),
       { seed: 8_004, numRuns: 2000 },
+    );
+  });
+});
+
+/** One generated column: its kind and each row's value (null = missing). */
+type GenColumn =
+  | { kind: "numeric"; name: string; cells: (number | null)[] }
+  | { kind: "boolean"; name: string; cells: (boolean | null)[] }
+  | { kind: "categorical"; name: string; cells: (string | null)[] };
+
+interface GenTable {
+  readonly features: GenColumn[];
+  /** Class labels, or numbers for a regression target; null = missing (the row is dropped). */
+  readonly target: { kind: "classes"; cells: (string | null)[] } | { kind: "values"; cells: (number | null)[] };
+  readonly delimiter: "," | ";" | "\t";
+  readonly lineEnd: "\n" | "\r\n";
+  readonly missing: string[];
+  readonly quoteAll: boolean;
+  readonly trailingNewline: boolean;
+}
+
+const columnName = fc.stringMatching(/^[a-z][a-z0-9_]{0,7}$/);
+const finite = fc.double({ min: -1e6, max: 1e6, noNaN: true }).map((v) => (Object.is(v, -0) ? 0 : v));
+/** Text that no rule reads as a number, boolean or missing: starts with "c", ends with "z" (no edge whitespace). */
+const category = fc.string({ maxLength: 6, unit: fc.constantFrom("a", "b", " ", ",", ";", "\t", "\"", "\n", "é", "1", ".") }).map((s) => `c${s}z`);
+
+function genTable(rows: number): fc.Arbitrary<GenTable> {
+  const maybe = <T>(arb: fc.Arbitrary<T>) => fc.option(arb, { freq: 5, nil: null });
+  const cells = <T>(arb: fc.Arbitrary<T>, first: T) =>
+    fc.array(maybe(arb), { minLength: rows - 1, maxLength: rows - 1 }).map((rest) => [first, ...rest]);
+  const feature = fc.oneof(
+    cells(finite, 1.25).map((c) => ({ kind: "numeric" as const, cells: c })),
+    cells(fc.boolean(), true).map((c) => ({ kind: "boolean" as const, cells: c })),
+    cells(category, "cfirstz").map((c) => ({ kind: "categorical" as const, cells: c })),
+  );
+  const target = fc.oneof(
+    fc
+      .array(maybe(fc.constantFrom("pos", "neg", "mid")), { minLength: rows - 2, maxLength: rows - 2 })
+      .map((rest) => ({ kind: "classes" as const, cells: ["pos", "neg", ...rest] })),
+    fc.array(maybe(finite), { minLength: rows - 1, maxLength: rows - 1 }).map((rest) => ({ kind: "values" as const, cells: [0.5, ...rest] })),
+  );
+  return fc.record({
+    names: fc.uniqueArray(columnName, { minLength: 5, maxLength: 5 }),
+    features: fc.array(feature, { minLength: 1, maxLength: 4 }),
+    target,
+    delimiter: fc.constantFrom(",", ";", "\t" as const),
+    lineEnd: fc.constantFrom("\n", "\r\n" as const),
+    missing: fc.subarray(["", "NA", "?", "null", "NaN", "na"], { minLength: 1 }),
+    quoteAll: fc.boolean(),
+    trailingNewline: fc.boolean(),
+  }).map(({ names, features, ...rest }) => ({ ...rest, features: features.map((f, i) => ({ ...f, name: names[i] }) as GenColumn) }));
+}
+
+/** The CSV text of a generated table; fields holding a delimiter, quote or line end are quoted (RFC 4180). */
+function serialise(table: GenTable, targetName: string, pickMissing: (row: number, col: number) => string): string {
+  const quote = (text: string) => (table.quoteAll || /[,;\t"\r\n]/.test(text) ? `"${text.replaceAll("\"", "\"\"")}"` : text);
+  const header = [...table.features.map((f) => f.name), targetName].map(quote).join(table.delimiter);
+  const lines = [header];
+  const rowCount = table.target.cells.length;
+  for (let r = 0; r < rowCount; r++) {
+    const cells = [...table.features.map((f) => f.cells[r]), table.target.cells[r]];
+    lines.push(
+      cells
+        .map((cell, c) => {
+          if (cell === null) return pickMissing(r, c) === "" ? "" : quote(pickMissing(r, c));
+          if (typeof cell === "boolean") return quote(cell ? (r % 2 ? "yes" : "True") : r % 2 ? "no" : "FALSE");
+          return quote(String(cell));
+        })
+        .join(table.delimiter),
+    );
+  }
+  return lines.join(table.lineEnd) + (table.trailingNewline ? table.lineEnd : "");
+}
+
+describe("valid generated CSV", () => {
+  it("loads with the values of the generated table", () => {
+    const arb = fc.integer({ min: 3, max: 25 }).chain((rows) => genTable(rows));
+    fc.assert(
+      fc.property(arb, (table) => {
+        const targetName = "target_col";
+        const text = serialise(table, targetName, (r, c) => table.missing[(r + c) % table.missing.length]);
+        const dataset = parseCsvDataset(text, "valid.csv", { target: targetName });
+        const kept: number[] = [];
+        table.target.cells.forEach((cell, r) => {
+          if (cell !== null) kept.push(r);
+        });
+        expect(dataset.rowCount).toBe(kept.length);
+        expect(dataset.droppedRows).toBe(table.target.cells.length - kept.length);
+        expect(dataset.features.map((f) => f.name)).toEqual(table.features.map((f) => f.name));
+        table.features.forEach((generated, c) => {
+          const column = dataset.features[c];
+          expect(column.kind).toBe(generated.kind);
+          kept.forEach((r, i) => {
+            const cell = generated.cells[r];
+            if (column.kind === "categorical") {
+              if (cell === null) expect(column.codes[i]).toBe(MISSING_CODE);
+              else expect(column.vocabulary[column.codes[i]]).toBe(cell);
+            } else if (cell === null) expect(column.values[i]).toBeNaN();
+            else expect(column.values[i]).toBe(Math.fround(typeof cell === "boolean" ? Number(cell) : (cell as number)));
+          });
+        });
+        const target = dataset.target;
+        if (table.target.kind === "classes") {
+          if (target.kind !== "classes") throw new Error(`class target read as ${target.kind}`);
+          kept.forEach((r, i) => expect(target.labels[target.codes[i]]).toBe(table.target.cells[r]));
+        } else {
+          if (target.kind !== "values") throw new Error(`numeric target read as ${target.kind}`);
+          kept.forEach((r, i) => expect(target.values[i]).toBe(table.target.cells[r]));
+        }
+      }),
+      { seed: 8_002, numRuns: 1500 },
     );
   });
 });
