@@ -244,3 +244,67 @@ describe("valid generated CSV", () => {
     );
   });
 });
+
+/** One way to break a valid file, applied at a generated position. */
+const mutation = fc.record({
+  kind: fc.constantFrom("drop-cell", "extra-cell", "stray-quote", "bom", "truncate", "binary", "long-field", "duplicate-name", "all-missing-target", "one-class", "header-only", "nul", "lone-cr"),
+  at: fc.nat(),
+  byte: fc.integer({ min: 0, max: 0xffff }),
+});
+
+function mutate(text: string, table: GenTable, m: { kind: string; at: number; byte: number }): { text: string; target: string } {
+  const lines = text.split(table.lineEnd);
+  const at = m.at % Math.max(1, text.length);
+  const line = 1 + (m.at % Math.max(1, lines.length - 1));
+  if (lines.length < 2 && (m.kind === "drop-cell" || m.kind === "extra-cell")) return { text, target: "target_col" };
+  switch (m.kind) {
+    case "drop-cell":
+      lines[line] = lines[line].split(table.delimiter).slice(1).join(table.delimiter);
+      return { text: lines.join(table.lineEnd), target: "target_col" };
+    case "extra-cell":
+      lines[line] += `${table.delimiter}1`;
+      return { text: lines.join(table.lineEnd), target: "target_col" };
+    case "stray-quote":
+      return { text: `${text.slice(0, at)}"${text.slice(at)}`, target: "target_col" };
+    case "bom":
+      return { text: `${text.slice(0, at)}\uFEFF${text.slice(at)}`, target: "target_col" };
+    case "truncate":
+      return { text: text.slice(0, at), target: "target_col" };
+    case "binary":
+      return { text: `${text.slice(0, at)}${String.fromCharCode(m.byte)}${text.slice(at)}`, target: "target_col" };
+    case "long-field":
+      return { text: `${text.slice(0, at)}${"9".repeat(100_000 + (m.byte % 1000))}${text.slice(at)}`, target: "target_col" };
+    case "duplicate-name":
+      lines[0] = `target_col${table.delimiter}${lines[0]}`;
+      return { text: lines.map((l, i) => (i === 0 ? l : `1${table.delimiter}${l}`)).join(table.lineEnd), target: "target_col" };
+    case "all-missing-target":
+      return { text: lines.map((l, i) => (i === 0 ? l : `${l.split(table.delimiter).slice(0, -1).join(table.delimiter)}${table.delimiter}NA`)).join(table.lineEnd), target: "target_col" };
+    case "one-class":
+      return { text: lines.map((l, i) => (i === 0 ? l : `${l.split(table.delimiter).slice(0, -1).join(table.delimiter)}${table.delimiter}same`)).join(table.lineEnd), target: "target_col" };
+    case "header-only":
+      return { text: lines[0] + table.lineEnd, target: "target_col" };
+    case "nul":
+      return { text: text.replaceAll(table.delimiter, m.byte % 2 ? "\0" : table.delimiter).slice(0, at + 1), target: "target_col" };
+    default:
+      return { text: text.replaceAll("\n", "\r").replaceAll("\r\r", "\r"), target: "target_col" };
+  }
+}
+
+describe("valid CSV broken in one place", () => {
+  it("gives a dataset or one InputError naming the file (and line for a ragged row)", () => {
+    const arb = fc.tuple(fc.integer({ min: 3, max: 15 }).chain((rows) => genTable(rows)), fc.array(mutation, { minLength: 1, maxLength: 3 }));
+    fc.assert(
+      fc.property(arb, ([table, mutations]) => {
+        let text = serialise(table, "target_col", () => "NA");
+        for (const m of mutations) text = mutate(text, table, m).text;
+        const outcome = timed(() => parseCsvDataset(text, "broken.csv", { target: "target_col" }));
+        expect(outcome.ms).toBeLessThan(SLOW_MS);
+        if (outcome.error === undefined) return;
+        if (!(outcome.error instanceof InputError)) throw outcome.error;
+        expect(outcome.error.message.startsWith("broken.csv")).toBe(true);
+        if (/fields|quote/i.test(outcome.error.message)) expect(outcome.error.message).toMatch(/^broken\.csv:\d+/);
+      }),
+      { seed: 8_005, numRuns: 2500 },
+    );
+  });
+});
