@@ -308,3 +308,21 @@ describe("valid CSV broken in one place", () => {
     );
   });
 });
+
+describe("a file with nothing to learn from", () => {
+  it("is refused at ingest when no feature column is left (not after a night of failed trials)", () => {
+    const arb = fc.tuple(fc.integer({ min: 3, max: 10 }).chain((rows) => genTable(rows)), fc.boolean());
+    fc.assert(
+      fc.property(arb, ([table, dropColumns]) => {
+        const full = serialise(table, "target_col", () => "NA");
+        // Either the file holds the target alone, or every other column is ignored.
+        const text = dropColumns ? serialise({ ...table, features: [] }, "target_col", () => "NA") : full;
+        const ignore = dropColumns ? [] : table.features.map((f) => f.name);
+        const outcome = timed(() => parseCsvDataset(text, "lonely.csv", { target: "target_col", ignore }));
+        expect(outcome.error).toBeInstanceOf(InputError);
+        expect((outcome.error as Error).message).toMatch(/^lonely\.csv:1: no feature columns/);
+      }),
+      { seed: 8_006, numRuns: 300 },
+    );
+  });
+});
