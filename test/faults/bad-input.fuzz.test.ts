@@ -1,9 +1,13 @@
+import { createHash } from "node:crypto";
+import { readdirSync, readFileSync, writeFileSync } from "node:fs";
+import { join } from "node:path";
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { parseCsvDataset } from "../../packages/core/src/csv/read-csv.js";
 import { InputError } from "../../packages/core/src/errors.js";
 import { MISSING_CODE } from "../../packages/core/src/frame.js";
 import { parsePlan } from "../../packages/core/src/plan/read-plan.js";
+import { nightshift, SMALL_FAMILIES, tempDir, writeSmallTurbines } from "../e2e/helpers.js";
 
 /** A call on small input that takes longer than this is treated as a hang. */
 const SLOW_MS = 2000;
@@ -324,5 +328,71 @@ describe("a file with nothing to learn from", () => {
       }),
       { seed: 8_006, numRuns: 300 },
     );
+  });
+});
+
+/** sha256 of every file in a folder, by name. */
+function folderHashes(dir: string): Record<string, string> {
+  const hashes: Record<string, string> = {};
+  for (const entry of readdirSync(dir, { recursive: true, withFileTypes: true })) {
+    if (!entry.isFile()) continue;
+    const path = join(entry.parentPath, entry.name);
+    hashes[path.slice(dir.length)] = createHash("sha256").update(readFileSync(path)).digest("hex");
+  }
+  return hashes;
+}
+
+describe("bad input through the real CLI", () => {
+  it("generated bad CSVs and plans exit with code 2 and one stderr line", () => {
+    const dir = tempDir("fuzz-cli");
+    // Inputs the in-process parser refuses; the CLI must refuse them the same way, before any trial.
+    const csvs = fc
+      .sample(malformedCsv, { seed: 8_007, numRuns: 400 })
+      .filter((text) => timed(() => parseCsvDataset(text, "x.csv", { target: "y" })).error instanceof InputError)
+      .slice(0, 3);
+    expect(csvs).toHaveLength(3);
+    const planBody = (train: string) => `name: fuzzcli\ndata: { train: ${train}, target: y, holdout: 0 }\nfolds: { k: 2 }\nbudget: { trials: 1 }\nfamilies:\n  tree: { depth: 2 }\n`;
+    const cases: string[] = [];
+    csvs.forEach((text, i) => {
+      writeFileSync(join(dir, `bad${i}.csv`), text);
+      writeFileSync(join(dir, `bad${i}.plan.yaml`), planBody(`bad${i}.csv`));
+      cases.push(`bad${i}.plan.yaml`);
+    });
+    const plans = fc.sample(fc.tuple(pathKey, badValue), { seed: 8_008, numRuns: 50 }).filter(([path]) => path !== "name" && path !== "data.train");
+    writeFileSync(join(dir, "ok.csv"), "a,y\n1,p\n2,q\n3,p\n4,q\n");
+    for (const [i, [path, value]] of plans.slice(0, 2).entries()) {
+      const plan = structuredClone({ ...PLAN_BASE, data: { train: "ok.csv", target: "y", holdout: 0 } }) as Record<string, unknown>;
+      setPath(plan, path, structuredClone(value));
+      writeFileSync(join(dir, `schema${i}.plan.yaml`), JSON.stringify(plan));
+      if (timed(() => parsePlan(JSON.stringify(plan), "p")).error instanceof InputError) cases.push(`schema${i}.plan.yaml`);
+    }
+    writeFileSync(join(dir, "yaml.plan.yaml"), "name: fuzzcli\ndata: { train: ok.csv\nbudget: [\n");
+    cases.push("yaml.plan.yaml");
+    for (const plan of cases) {
+      const r = nightshift(["run", plan, "--run-dir", `run-${plan}`, "--quiet"], dir);
+      expect({ plan, code: r.code }).toEqual({ plan, code: 2 });
+      expect(r.stderr.trim().split("\n")).toHaveLength(1);
+      expect(r.stderr).toContain(plan.endsWith(".csv") ? plan : plan.includes("bad") ? plan.replace(".plan.yaml", ".csv") : plan);
+    }
+  });
+
+  it("a refused resume leaves the run folder byte for byte as it was", () => {
+    const dir = tempDir("fuzz-resume");
+    const data = writeSmallTurbines(dir, 30, 10);
+    const body = `name: kept\ndata: { train: turbines.csv, target: failed_within_30d, ignore: [turbine_id] }\nfolds: { k: 2 }\nbudget: { trials: 1 }\nfamilies:\n  tree: { depth: 2 }\n`;
+    writeFileSync(join(dir, "kept.plan.yaml"), body);
+    expect(nightshift(["run", "kept.plan.yaml", "--run-dir", "r", "--quiet"], dir).code).toBe(0);
+    const before = folderHashes(join(dir, "r"));
+    // The plan changed, then the data file changed under an unchanged plan.
+    writeFileSync(join(dir, "kept.plan.yaml"), body.replace("depth: 2", "depth: 3"));
+    const planChanged = nightshift(["run", "kept.plan.yaml", "--run-dir", "r", "--quiet"], dir);
+    writeFileSync(join(dir, "kept.plan.yaml"), body);
+    writeFileSync(data, readFileSync(data, "utf8").replace(/\n[^\n]*\n$/, "\n"));
+    const dataChanged = nightshift(["run", "kept.plan.yaml", "--run-dir", "r", "--quiet"], dir);
+    for (const r of [planChanged, dataChanged]) {
+      expect(r.code).toBe(2);
+      expect(r.stderr.trim().split("\n")).toHaveLength(1);
+    }
+    expect(folderHashes(join(dir, "r"))).toEqual(before);
   });
 });
