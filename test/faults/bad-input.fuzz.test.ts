@@ -141,6 +141,46 @@ function setPath(target: Record<string, unknown>, path: string, value: unknown):
   node[keys[keys.length - 1]] = value;
 }
 
+/** YAML that parses but is hostile to a plan reader: aliases that expand too far, keys a JS object mishandles, ranges past a double. */
+const hostileEntry = fc.oneof(
+  fc.integer({ min: 5, max: 8 }).map((depth) => {
+    const levels = ["l0: &l0 [x, x, x, x, x, x, x, x, x]"];
+    for (let d = 1; d < depth; d++) levels.push(`l${d}: &l${d} [${Array(9).fill(`*l${d - 1}`).join(", ")}]`);
+    return { where: "top", text: levels.join("\n") };
+  }),
+  fc.constantFrom(
+    { where: "family", text: "__proto__: { int: [1, 2] }" },
+    { where: "family", text: "? [a, b] : 2" },
+    { where: "family", text: "? { a: 1 } : 2" },
+    { where: "family", text: "~: 2" },
+    { where: "family", text: "'': 2" },
+    { where: "family", text: "trees: { int: [1, 1e300] }" },
+    { where: "family", text: "trees: { uniform: [-1e308, 1e308] }" },
+    { where: "family", text: "trees: { int: [1, 2], log: yes }" },
+    { where: "top", text: "__proto__: { polluted: 1 }" },
+    { where: "families", text: "__proto__: { trees: 3 }" },
+  ),
+);
+
+describe("hostile plans", () => {
+  it("throw one InputError with a location, never another error, and pollute nothing", () => {
+    fc.assert(
+      fc.property(fc.array(hostileEntry, { minLength: 1, maxLength: 2 }), (entries) => {
+        const top = entries.filter((e) => e.where === "top").map((e) => e.text);
+        const family = entries.filter((e) => e.where === "family").map((e) => `    ${e.text}`);
+        const families = entries.filter((e) => e.where === "families").map((e) => `  ${e.text}`);
+        const text = ["name: fuzz", "data: { train: t.csv, target: y }", "budget: { trials: 3 }", ...top, "families:", ...families, "  forest:", ...family, "    depth: 3"].join("\n");
+        const outcome = timed(() => parsePlan(text, "hostile.plan.yaml"));
+        expect(outcome.ms).toBeLessThan(SLOW_MS);
+        if (!(outcome.error instanceof InputError)) throw outcome.error ?? new Error(`accepted: ${text}`);
+        expect(outcome.error.message).toMatch(/^hostile\.plan\.yaml(:\d+:\d+)?: /);
+        expect(({} as Record<string, unknown>).polluted).toBeUndefined();
+      }),
+      { seed: 8_010, numRuns: 300 },
+    );
+  });
+});
+
 describe("malformed plans", () => {
   it("throw one InputError naming the key path of a schema problem", () => {
     fc.assert(
