@@ -446,6 +446,7 @@ describe("bad input through the real CLI", () => {
     }
     writeFileSync(join(dir, "yaml.plan.yaml"), "name: fuzzcli\ndata: { train: ok.csv\nbudget: [\n");
     cases.push("yaml.plan.yaml");
+    expect(cases).toHaveLength(4);
     for (const plan of cases) {
       const r = nightshift(["run", plan, "--run-dir", `run-${plan}`, "--quiet"], dir);
       expect({ plan, code: r.code }).toEqual({ plan, code: 2 });
