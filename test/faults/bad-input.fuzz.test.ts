@@ -391,6 +391,27 @@ describe("valid CSV broken in one place", () => {
   });
 });
 
+describe("a ragged row", () => {
+  it("is reported on its own line", () => {
+    const arb = fc.tuple(fc.integer({ min: 3, max: 15 }).chain((rows) => genTable(rows)), fc.nat(), fc.boolean());
+    fc.assert(
+      fc.property(arb, ([table, pick, drop]) => {
+        const text = serialise(table, "target_col", () => "NA");
+        const lines = text.split(table.lineEnd);
+        // Line numbers are only known here when no quoted field spans lines.
+        fc.pre(table.features.every((f) => f.kind !== "categorical" || f.cells.every((cell) => cell === null || !/[\r\n]/.test(cell))));
+        const row = 1 + (pick % (table.target.cells.length));
+        // The target cell is last and never holds a delimiter, so cutting at the last delimiter drops exactly one field.
+        lines[row] = drop ? lines[row].slice(0, lines[row].lastIndexOf(table.delimiter)) : `${lines[row]}${table.delimiter}1`;
+        const outcome = timed(() => parseCsvDataset(lines.join(table.lineEnd), "ragged.csv", { target: "target_col" }));
+        expect(outcome.error).toBeInstanceOf(InputError);
+        expect((outcome.error as Error).message).toMatch(new RegExp(`^ragged\\.csv:${row + 1}: this row has \\d+ fields but the header has ${table.features.length + 1}`));
+      }),
+      { seed: 8_011, numRuns: 500 },
+    );
+  });
+});
+
 describe("a file with nothing to learn from", () => {
   it("is refused at ingest when no feature column is left (not after a night of failed trials)", () => {
     const arb = fc.tuple(fc.integer({ min: 3, max: 10 }).chain((rows) => genTable(rows)), fc.boolean());
