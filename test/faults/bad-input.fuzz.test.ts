@@ -1,13 +1,24 @@
 import { createHash } from "node:crypto";
-import { readdirSync, readFileSync, writeFileSync } from "node:fs";
+import { readdirSync, readFileSync, rmSync, writeFileSync } from "node:fs";
 import { join } from "node:path";
 import fc from "fast-check";
-import { describe, expect, it } from "vitest";
+import { afterAll, describe, expect, it } from "vitest";
 import { parseCsvDataset, readCsvDataset } from "../../packages/core/src/csv/read-csv.js";
 import { InputError } from "../../packages/core/src/errors.js";
 import { MISSING_CODE } from "../../packages/core/src/frame.js";
 import { parsePlan } from "../../packages/core/src/plan/read-plan.js";
-import { nightshift, SMALL_FAMILIES, tempDir, writeSmallTurbines } from "../e2e/helpers.js";
+import { nightshift, tempDir as makeTempDir, writeSmallTurbines } from "../e2e/helpers.js";
+
+const scratch: string[] = [];
+afterAll(() => {
+  for (const dir of scratch) rmSync(dir, { recursive: true, force: true });
+});
+
+function tempDir(prefix: string): string {
+  const dir = makeTempDir(prefix);
+  scratch.push(dir);
+  return dir;
+}
 
 /** A call on small input that takes longer than this is treated as a hang. */
 const SLOW_MS = 2000;
