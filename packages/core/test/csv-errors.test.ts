@@ -31,6 +31,11 @@ describe("bad CSV input gives one InputError naming file and line", () => {
     expect(error.message).toMatch(/data\.csv:4: this row has 2 fields but the header has 3/);
   });
 
+  it("a file with no feature column besides the target", async () => {
+    expect((await fileError("y\n0\n1\n", { target: "y" })).message).toMatch(/data\.csv:1: no feature columns are left besides the target/);
+    expect((await fileError("id,y\n1,0\n2,1\n", { target: "y", ignore: ["id"] })).message).toMatch(/data\.csv:1: no feature columns/);
+  });
+
   it("an unterminated quote", async () => {
     const error = await fileError('a,b,y\n1,2,0\n3,"4,1\n5,6,0\n', { target: "y" });
     expect(error.message).toMatch(/data\.csv:3: a quoted field that starts on this line or later is never closed/);

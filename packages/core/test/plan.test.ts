@@ -51,6 +51,20 @@ describe("plan files", () => {
   it("reports YAML syntax errors with line and column", () => {
     expect(errorOf("name: x\n  bad: [\n")).toMatch(/^p\.plan\.yaml:\d+:\d+: not valid YAML/);
   });
+
+  it("refuses keys a JavaScript object would mishandle, and alias bombs, with one InputError", () => {
+    expect(errorOf(base.replace("rounds: 500", "rounds: 500, __proto__: { int: [1, 2] }"))).toMatch(/^p\.plan\.yaml:11:\d+: '__proto__' cannot be a key/);
+    expect(errorOf(base.replace("rounds: 500", "rounds: 500, ? [a, b] : 2"))).toMatch(/^p\.plan\.yaml:11:\d+: a key must be a plain name/);
+    expect(errorOf(base.replace("rounds: 500", "rounds: 500, ~: 2"))).toMatch(/^p\.plan\.yaml:11:\d+: a key must not be empty/);
+    const levels = ["a0: &a0 [x, x, x, x, x, x, x, x, x]"];
+    for (let d = 1; d < 6; d++) levels.push(`a${d}: &a${d} [${Array(9).fill(`*a${d - 1}`).join(", ")}]`);
+    expect(errorOf(`${levels.join("\n")}\n${base}`)).toMatch(/^p\.plan\.yaml: not a usable plan: /);
+  });
+
+  it("refuses ranges a double cannot sample", () => {
+    expect(errorOf(base.replace("[50, 400]", "[50, 1e300]"))).toMatch(/families\.forest\.trees: int bounds must lie within/);
+    expect(errorOf(base.replace("[0.1, 1.0]", "[-1e308, 1e308]"))).toMatch(/families\.forest\.split_features: uniform range .* is wider than a double/);
+  });
 });
 
 describe("distributions", () => {

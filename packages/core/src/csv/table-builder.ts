@@ -142,6 +142,11 @@ export class TableBuilder {
       builders.push(builder);
       fieldIndex.push(i);
     });
+    // A file whose only columns are the target (and group or ignored ones) would run a whole night
+    // of trials that all fail; refuse it before anything starts.
+    if (this.rereadOnly === null && !builders.some((b) => b !== this.target && b !== this.group)) {
+      throw new InputError(where, `no feature columns are left besides the target${options.group !== undefined ? " and group" : ""}; the columns are ${listNames(names, 50)}`);
+    }
     this.builders = builders;
     this.fieldIndex = Int32Array.from(fieldIndex);
   }

@@ -39,12 +39,16 @@ export function parseDistribution(raw: unknown): Distribution | string {
     return `${kind} must be a list of two numbers [low, high]`;
   const [low, high] = value as [number, number];
   if (!(low <= high)) return `${kind} needs low <= high (got [${low}, ${high}])`;
+  // A span that overflows a double would sample only infinities.
+  if (!Number.isFinite(high - low)) return `${kind} range [${low}, ${high}] is wider than a double can hold`;
   if (kind === "uniform") return { kind, low, high };
   if (kind === "log_uniform") {
     if (!(low > 0)) return `log_uniform needs low > 0 (got ${low})`;
     return { kind, low, high };
   }
   if (!Number.isInteger(low) || !Number.isInteger(high)) return `int needs integer bounds (got [${low}, ${high}])`;
+  // Beyond 2^53 a double no longer holds every integer, so the draw would skip values.
+  if (!Number.isSafeInteger(low) || !Number.isSafeInteger(high)) return `int bounds must lie within ±${Number.MAX_SAFE_INTEGER} (got [${low}, ${high}])`;
   const log = entry.log ?? false;
   if (typeof log !== "boolean") return "log must be true or false";
   if (log && !(low >= 1)) return `int with log needs low >= 1 (got ${low})`;

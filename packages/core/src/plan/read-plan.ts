@@ -1,5 +1,5 @@
 import { readFileSync } from "node:fs";
-import { isMap, isScalar, LineCounter, parseDocument, type Node } from "yaml";
+import { isMap, isScalar, LineCounter, parseDocument, visit, type Node } from "yaml";
 import { InputError } from "../errors.js";
 import { type Plan, PlanSchema } from "./plan-schema.js";
 
@@ -25,7 +25,18 @@ export function parsePlan(text: string, source: string): Plan {
     const { line, col } = lineCounter.linePos(error.pos[0]);
     throw new InputError(`${source}:${line}:${col}`, `not valid YAML: ${error.message.split("\n")[0]}`);
   }
-  const raw: unknown = doc.toJS();
+  const badKey = firstBadKey(doc.contents);
+  if (badKey !== null) {
+    const { line, col } = lineCounter.linePos(badKey.position);
+    throw new InputError(`${source}:${line}:${col}`, badKey.message);
+  }
+  let raw: unknown;
+  try {
+    raw = doc.toJS();
+  } catch (error) {
+    // The yaml library refuses documents whose aliases expand too far (a resource exhaustion guard).
+    throw new InputError(source, `not a usable plan: ${(error as Error).message}`);
+  }
   if (raw === null || typeof raw !== "object" || Array.isArray(raw)) throw new InputError(source, "a plan must be a mapping of keys (name, data, budget, families ...)");
   const result = PlanSchema.safeParse(raw);
   if (result.success) return result.data;
@@ -55,4 +66,25 @@ function locate(root: unknown, path: string[], lineCounter: LineCounter): string
   if (position === undefined) return "";
   const { line, col } = lineCounter.linePos(position);
   return `:${line}:${col}`;
+}
+
+/**
+ * The first mapping key that cannot name a plan setting: not a plain scalar (a list or mapping
+ * as key would be stringified), empty, or `__proto__` (which a JavaScript object would take as
+ * its prototype and so silently drop).
+ */
+function firstBadKey(root: unknown): { position: number; message: string } | null {
+  let found: { position: number; message: string } | null = null;
+  if (root === null || root === undefined) return null;
+  visit(root as Node, {
+    Pair(_, pair) {
+      const key = pair.key as Node | null;
+      const position = key?.range?.[0] ?? (pair.value as Node | null)?.range?.[0] ?? 0;
+      if (!isScalar(key)) found = { position, message: "a key must be a plain name, not a list, mapping or nothing" };
+      else if (key.value === null || String(key.value) === "") found = { position, message: "a key must not be empty" };
+      else if (String(key.value) === "__proto__") found = { position, message: "'__proto__' cannot be a key" };
+      return found === null ? undefined : visit.BREAK;
+    },
+  });
+  return found;
 }
