@@ -62,8 +62,8 @@ function killMoments(seed: number): Moment[] {
 }
 
 async function killAt(child: ChildProcess, exited: Promise<number | null>, runDir: string, moment: Moment): Promise<"killed" | "finished"> {
-  // At least one new fold result per count-based kill, so every such kill lands after real progress.
-  const target = moment.kind === "folds" ? Math.max(moment.atLeast, storedFoldResults(runDir) + 1) : 0;
+  // One new fold result per count-based kill where possible (so kills land after real progress), never the last one.
+  const target = moment.kind === "folds" ? Math.min(TRIALS * FOLDS - 1, Math.max(moment.atLeast, storedFoldResults(runDir) + 1)) : 0;
   let finished = false;
   void exited.then(() => {
     finished = true;
