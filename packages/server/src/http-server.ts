@@ -95,7 +95,19 @@ export async function createServer(options: ServerOptions): Promise<FastifyInsta
   const cache = new RunCache(8);
   const summaries = new RunCache(512);
   const clock = options.clock ?? Date.now;
-  const app = Fastify({ logger: false, bodyLimit: MAX_BODY_BYTES, routerOptions: { maxParamLength: 200 }, return503OnClosing: true });
+  const app = Fastify({
+    logger: false,
+    bodyLimit: MAX_BODY_BYTES,
+    routerOptions: { maxParamLength: 200 },
+    return503OnClosing: true,
+    // Refusals made before routing (a malformed percent-encoding) answer in the API's own error shape.
+    frameworkErrors: (error, _request, frameworkReply) => {
+      const { status, body } = errorResponse(error);
+      const reply = frameworkReply as FastifyReply;
+      for (const [name, value] of Object.entries(SECURITY_HEADERS)) reply.header(name, value);
+      return reply.status(status).type("application/json; charset=utf-8").send(JSON.stringify(ErrorResponseSchema.parse(body)));
+    },
+  });
 
   app.addHook("onRequest", async (request, reply) => {
     for (const [name, value] of Object.entries(SECURITY_HEADERS)) reply.header(name, value);

@@ -59,6 +59,44 @@ CREATE TABLE IF NOT EXISTS artifacts (name TEXT PRIMARY KEY, kind TEXT NOT NULL,
 
 export const STORE_FILE = "run.sqlite";
 
+/** SQLite result codes that mean the file system refused a write (full, read-only, failing, vanished). */
+const DISK_CODES = /^SQLITE_(FULL|IOERR|READONLY|CANTOPEN)/;
+
+/**
+ * The store's file could not be written: the disk is full or read-only, or the folder is gone.
+ * What was committed before stays intact (each commit is one transaction), so the run resumes
+ * with the same command once the disk is writable again.
+ */
+export class StoreWriteError extends Error {
+  readonly file: string;
+  readonly code: string;
+
+  constructor(file: string, code: string, reason: string) {
+    super(
+      `${file}: cannot write the run store (${code}: ${reason}); the disk may be full or read-only. ` +
+        "What is already stored is kept; run the same command again to resume once the disk is writable.",
+    );
+    this.name = "StoreWriteError";
+    this.file = file;
+    this.code = code;
+  }
+}
+
+export function isStoreWriteError(error: unknown): error is StoreWriteError {
+  return error instanceof StoreWriteError;
+}
+
+/** Rethrows a refused disk write as a StoreWriteError; anything else unchanged. */
+function guardWrite<T>(file: string, write: () => T): T {
+  try {
+    return write();
+  } catch (error) {
+    const code = (error as { code?: unknown }).code;
+    if (typeof code === "string" && DISK_CODES.test(code)) throw new StoreWriteError(file, code, (error as Error).message);
+    throw error;
+  }
+}
+
 function toBlob(values: Float32Array | Uint32Array): Buffer {
   return Buffer.from(values.buffer, values.byteOffset, values.byteLength);
 }
@@ -86,6 +124,10 @@ export class RunStore {
   readonly folder: string;
   private readonly db: Database.Database;
 
+  private get file(): string {
+    return join(this.folder, STORE_FILE);
+  }
+
   private constructor(folder: string, db: Database.Database) {
     this.folder = folder;
     this.db = db;
@@ -100,11 +142,14 @@ export class RunStore {
     }
     const db = new Database(file, { readonly: options.readonly ?? false, fileMustExist: !options.create });
     if (!options.readonly) {
-      db.pragma("journal_mode = WAL");
-      // WAL + NORMAL is durable against a killed process (kill -9); an OS crash may lose the last commits,
-      // which are then redone as fold jobs with identical results.
-      db.pragma("synchronous = NORMAL");
-      db.exec(SCHEMA);
+      guardWrite(file, () => {
+        db.pragma("journal_mode = WAL");
+        // WAL + NORMAL is durable against a killed process (kill -9); an OS crash may lose the last commits,
+        // which are then redone as fold jobs with identical results.
+        db.pragma("synchronous = NORMAL");
+        // One transaction: a process killed while creating the store leaves all tables or none.
+        db.transaction(() => db.exec(SCHEMA))();
+      });
     }
     db.pragma("busy_timeout = 5000");
     return new RunStore(folder, db);
@@ -119,28 +164,36 @@ export class RunStore {
   }
 
   getMeta(key: string): string | undefined {
+    // A store whose creating process died before writing its schema has no meta yet: a run not started.
+    if (!this.db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'meta'").get()) return undefined;
     const row = this.db.prepare("SELECT value FROM meta WHERE key = ?").get(key) as { value: string } | undefined;
     return row?.value;
   }
 
   setMeta(key: string, value: string): void {
-    this.db.prepare("INSERT INTO meta (key, value) VALUES (?, ?) ON CONFLICT(key) DO UPDATE SET value = excluded.value").run(key, value);
+    guardWrite(this.file, () => {
+      this.db.prepare("INSERT INTO meta (key, value) VALUES (?, ?) ON CONFLICT(key) DO UPDATE SET value = excluded.value").run(key, value);
+    });
   }
 
   /** Sets meta keys only where absent, in one transaction; returns the stored values. */
   initMeta(values: Record<string, string>): Record<string, string> {
-    const insert = this.db.prepare("INSERT OR IGNORE INTO meta (key, value) VALUES (?, ?)");
-    this.db.transaction(() => {
-      for (const [k, v] of Object.entries(values)) insert.run(k, v);
-    })();
-    const out: Record<string, string> = {};
-    for (const key of Object.keys(values)) out[key] = this.getMeta(key) ?? "";
-    return out;
+    return guardWrite(this.file, () => {
+      const insert = this.db.prepare("INSERT OR IGNORE INTO meta (key, value) VALUES (?, ?)");
+      this.db.transaction(() => {
+        for (const [k, v] of Object.entries(values)) insert.run(k, v);
+      })();
+      const out: Record<string, string> = {};
+      for (const key of Object.keys(values)) out[key] = this.getMeta(key) ?? "";
+      return out;
+    });
   }
 
   saveFolds(folds: ReadonlyArray<{ repeat: number; index: number; test: Uint32Array }>): void {
-    const insert = this.db.prepare("INSERT OR IGNORE INTO folds (fold, repeat, idx, test_rows) VALUES (?, ?, ?, ?)");
-    this.db.transaction(() => folds.forEach((f, i) => insert.run(i, f.repeat, f.index, toBlob(f.test))))();
+    guardWrite(this.file, () => {
+      const insert = this.db.prepare("INSERT OR IGNORE INTO folds (fold, repeat, idx, test_rows) VALUES (?, ?, ?, ?)");
+      this.db.transaction(() => folds.forEach((f, i) => insert.run(i, f.repeat, f.index, toBlob(f.test))))();
+    });
   }
 
   folds(): Array<{ fold: number; repeat: number; index: number; test: Uint32Array }> {
@@ -150,10 +203,12 @@ export class RunStore {
 
   /** Records trials that are not yet stored (a resumed run re-derives the same ones). */
   addTrials(trials: ReadonlyArray<{ trial: number; family: string; params: Record<string, unknown> }>): void {
-    const insert = this.db.prepare("INSERT OR IGNORE INTO trials (trial, family, params) VALUES (?, ?, ?)");
-    this.db.transaction(() => {
-      for (const t of trials) insert.run(t.trial, t.family, JSON.stringify(t.params));
-    })();
+    guardWrite(this.file, () => {
+      const insert = this.db.prepare("INSERT OR IGNORE INTO trials (trial, family, params) VALUES (?, ?, ?)");
+      this.db.transaction(() => {
+        for (const t of trials) insert.run(t.trial, t.family, JSON.stringify(t.params));
+      })();
+    });
   }
 
   trials(): TrialRecord[] {
@@ -162,10 +217,12 @@ export class RunStore {
   }
 
   setTrialStatus(trial: number, status: TrialStatus, message: string | null = null, event?: { kind: string; data: Record<string, unknown> }): void {
-    this.db.transaction(() => {
-      this.db.prepare("UPDATE trials SET status = ?, message = ? WHERE trial = ?").run(status, message, trial);
-      if (event) this.insertEvent(event.kind, event.data);
-    })();
+    guardWrite(this.file, () => {
+      this.db.transaction(() => {
+        this.db.prepare("UPDATE trials SET status = ?, message = ? WHERE trial = ?").run(status, message, trial);
+        if (event) this.insertEvent(event.kind, event.data);
+      })();
+    });
   }
 
   /**
@@ -174,17 +231,19 @@ export class RunStore {
    * Returns false when it was already stored.
    */
   commitFoldResult(result: FoldResultRecord, trialStatus?: { status: TrialStatus; message: string | null }, event?: { kind: string; data: Record<string, unknown> }): boolean {
-    let inserted = false;
-    this.db.transaction(() => {
-      const info = this.db
-        .prepare("INSERT OR IGNORE INTO fold_results (trial, fold, score, fit_s, predict_s, oof, error, committed_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?)")
-        .run(result.trial, result.fold, result.score, result.fitSeconds, result.predictSeconds, result.outOfFold ? toBlob(result.outOfFold) : null, result.error, new Date().toISOString());
-      inserted = info.changes === 1;
-      if (!inserted) return;
-      if (trialStatus) this.db.prepare("UPDATE trials SET status = ?, message = ? WHERE trial = ?").run(trialStatus.status, trialStatus.message, result.trial);
-      if (event) this.insertEvent(event.kind, event.data);
-    })();
-    return inserted;
+    return guardWrite(this.file, () => {
+      let inserted = false;
+      this.db.transaction(() => {
+        const info = this.db
+          .prepare("INSERT OR IGNORE INTO fold_results (trial, fold, score, fit_s, predict_s, oof, error, committed_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?)")
+          .run(result.trial, result.fold, result.score, result.fitSeconds, result.predictSeconds, result.outOfFold ? toBlob(result.outOfFold) : null, result.error, new Date().toISOString());
+        inserted = info.changes === 1;
+        if (!inserted) return;
+        if (trialStatus) this.db.prepare("UPDATE trials SET status = ?, message = ? WHERE trial = ?").run(trialStatus.status, trialStatus.message, result.trial);
+        if (event) this.insertEvent(event.kind, event.data);
+      })();
+      return inserted;
+    });
   }
 
   /** Fold results without their predictions (cheap; for boards and scheduling). */
@@ -200,15 +259,17 @@ export class RunStore {
   }
 
   recordHalving(decisions: readonly HalvingDecision[], event?: { kind: string; data: Record<string, unknown> }): void {
-    const insert = this.db.prepare("INSERT OR IGNORE INTO halving (batch, rung, trial, score, promoted) VALUES (?, ?, ?, ?, ?)");
-    const prune = this.db.prepare("UPDATE trials SET status = 'pruned' WHERE trial = ? AND status IN ('queued', 'running')");
-    this.db.transaction(() => {
-      for (const d of decisions) {
-        insert.run(d.batch, d.rung, d.trial, d.score, d.promoted ? 1 : 0);
-        if (!d.promoted) prune.run(d.trial);
-      }
-      if (event) this.insertEvent(event.kind, event.data);
-    })();
+    guardWrite(this.file, () => {
+      const insert = this.db.prepare("INSERT OR IGNORE INTO halving (batch, rung, trial, score, promoted) VALUES (?, ?, ?, ?, ?)");
+      const prune = this.db.prepare("UPDATE trials SET status = 'pruned' WHERE trial = ? AND status IN ('queued', 'running')");
+      this.db.transaction(() => {
+        for (const d of decisions) {
+          insert.run(d.batch, d.rung, d.trial, d.score, d.promoted ? 1 : 0);
+          if (!d.promoted) prune.run(d.trial);
+        }
+        if (event) this.insertEvent(event.kind, event.data);
+      })();
+    });
   }
 
   halvingDecisions(): HalvingDecision[] {
@@ -217,7 +278,9 @@ export class RunStore {
   }
 
   addEvent(kind: string, data: Record<string, unknown>): void {
-    this.insertEvent(kind, data);
+    guardWrite(this.file, () => {
+      this.insertEvent(kind, data);
+    });
   }
 
   private insertEvent(kind: string, data: Record<string, unknown>): void {
@@ -231,9 +294,11 @@ export class RunStore {
 
   /** Named results of later steps (ensembles, hold-out opening): JSON text, written once or replaced. */
   putArtifact(name: string, kind: string, data: unknown): void {
-    this.db
-      .prepare("INSERT INTO artifacts (name, kind, data, created_at) VALUES (?, ?, ?, ?) ON CONFLICT(name) DO UPDATE SET kind = excluded.kind, data = excluded.data, created_at = excluded.created_at")
-      .run(name, kind, JSON.stringify(data), new Date().toISOString());
+    guardWrite(this.file, () => {
+      this.db
+        .prepare("INSERT INTO artifacts (name, kind, data, created_at) VALUES (?, ?, ?, ?) ON CONFLICT(name) DO UPDATE SET kind = excluded.kind, data = excluded.data, created_at = excluded.created_at")
+        .run(name, kind, JSON.stringify(data), new Date().toISOString());
+    });
   }
 
   artifact(name: string): { kind: string; data: unknown; createdAt: string } | undefined {
