@@ -2,7 +2,7 @@ import { spawnSync } from "node:child_process";
 import { join } from "node:path";
 import { RunStore } from "@nightshift/store";
 import { describe, expect, it } from "vitest";
-import { nightshift, nightshiftAsync, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "./helpers.js";
+import { allPredictions, nightshift, nightshiftAsync, storedFolds, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "./helpers.js";
 
 function plan(halving: boolean): string {
   return `name: determinism
@@ -12,17 +12,6 @@ metric: average_precision
 folds: { k: 3 }
 budget: { trials: ${halving ? 9 : 8} }
 ${halving ? "halving: { eta: 3 }\n" : ""}${SMALL_FAMILIES}`;
-}
-
-function allPredictions(runDir: string): Record<string, number[]> {
-  const store = RunStore.open(runDir, { readonly: true });
-  try {
-    const out: Record<string, number[]> = {};
-    for (const t of store.trials()) for (const [fold, oof] of store.outOfFold(t.trial)) out[`${t.trial}/${fold}`] = Array.from(oof);
-    return out;
-  } finally {
-    store.close();
-  }
 }
 
 describe("determinism of a run", () => {
@@ -54,19 +43,7 @@ describe("determinism of a run", () => {
     const child = nightshiftAsync(["run", planPath, "--run-dir", killedDir, "--workers", "1", "--quiet"], dir);
     const exited = new Promise<void>((resolveExit) => child.on("exit", () => resolveExit()));
     // Wait until some, not all, fold results are committed, then kill without warning.
-    for (;;) {
-      await new Promise((r) => setTimeout(r, 50));
-      if (!RunStore.exists(killedDir)) continue;
-      let stored = 0;
-      try {
-        const store = RunStore.open(killedDir, { readonly: true });
-        stored = store.foldScores().length;
-        store.close();
-      } catch {
-        continue;
-      }
-      if (stored >= 5) break;
-    }
+    while (storedFolds(killedDir) < 5) await new Promise((r) => setTimeout(r, 50));
     child.kill("SIGKILL");
     await exited;
     const partial = RunStore.open(killedDir, { readonly: true });

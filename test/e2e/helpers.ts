@@ -2,6 +2,7 @@ import { type ChildProcess, spawn, spawnSync } from "node:child_process";
 import { mkdtempSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join, resolve } from "node:path";
+import { RunStore } from "@nightshift/store";
 import { stringify } from "csv-stringify/sync";
 import { generateTurbineRows, TURBINE_COLUMNS } from "../../packages/cli/src/demo/turbine-data.js";
 
@@ -51,4 +52,31 @@ export function nightshiftAsync(args: string[], cwd: string): ChildProcess {
 export function withoutTimings(board: { rows: Array<Record<string, unknown>>; holdout?: Record<string, unknown> | null }): unknown {
   const holdout = board.holdout ? (({ opened_at: _o, ...rest }) => rest)(board.holdout) : board.holdout;
   return { ...board, rows: board.rows.map(({ fit_s: _f, predict_s: _p, ...rest }) => rest), holdout };
+}
+
+/** How many fold results a run folder holds, read without writing (0 while its store is missing or not yet readable). */
+export function storedFolds(runDir: string): number {
+  if (!RunStore.exists(runDir)) return 0;
+  try {
+    const store = RunStore.open(runDir, { readonly: true });
+    try {
+      return store.foldScores().length;
+    } finally {
+      store.close();
+    }
+  } catch {
+    return 0;
+  }
+}
+
+/** Every stored out-of-fold prediction of a run, keyed trial/fold. */
+export function allPredictions(runDir: string): Record<string, number[]> {
+  const store = RunStore.open(runDir, { readonly: true });
+  try {
+    const out: Record<string, number[]> = {};
+    for (const t of store.trials()) for (const [fold, oof] of store.outOfFold(t.trial)) out[`${t.trial}/${fold}`] = Array.from(oof);
+    return out;
+  } finally {
+    store.close();
+  }
 }

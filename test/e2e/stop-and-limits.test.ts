@@ -1,19 +1,7 @@
 import { join } from "node:path";
 import { RunStore } from "@nightshift/store";
 import { describe, expect, it } from "vitest";
-import { nightshift, nightshiftAsync, SMALL_FAMILIES, tempDir, writePlan, writeSmallTurbines } from "./helpers.js";
-
-async function storedFolds(runDir: string): Promise<number> {
-  if (!RunStore.exists(runDir)) return 0;
-  try {
-    const store = RunStore.open(runDir, { readonly: true });
-    const n = store.foldScores().length;
-    store.close();
-    return n;
-  } catch {
-    return 0;
-  }
-}
+import { nightshift, nightshiftAsync, storedFolds, SMALL_FAMILIES, tempDir, writePlan, writeSmallTurbines } from "./helpers.js";
 
 describe("stopping and limits", () => {
   it("stops cleanly on Ctrl-C, says how to resume, and the resumed run completes", async () => {
@@ -25,7 +13,7 @@ describe("stopping and limits", () => {
     let stderr = "";
     child.stderr?.on("data", (chunk: Buffer) => (stderr += chunk.toString()));
     const exited = new Promise<number | null>((resolve) => child.on("exit", (code) => resolve(code)));
-    while ((await storedFolds(runDir)) < 3) await new Promise((r) => setTimeout(r, 50));
+    while (storedFolds(runDir) < 3) await new Promise((r) => setTimeout(r, 50));
     child.kill("SIGINT");
     const code = await exited;
     expect(code).toBe(130);

@@ -3,7 +3,7 @@ import { join } from "node:path";
 import { createRng } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
 import { describe, expect, it } from "vitest";
-import { nightshift, nightshiftAsync, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
+import { allPredictions, nightshift, nightshiftAsync, storedFolds, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 
 // Enough fold jobs (36) that 20 kills rarely run out of work even when resumes are quick.
 const TRIALS = 12;
@@ -19,32 +19,6 @@ budget: { trials: ${TRIALS} }
 ${SMALL_FAMILIES}`;
 
 const RUN_ARGS = ["--workers", "1", "--search-only"];
-
-function allPredictions(runDir: string): Record<string, number[]> {
-  const store = RunStore.open(runDir, { readonly: true });
-  try {
-    const out: Record<string, number[]> = {};
-    for (const t of store.trials()) for (const [fold, oof] of store.outOfFold(t.trial)) out[`${t.trial}/${fold}`] = Array.from(oof);
-    return out;
-  } finally {
-    store.close();
-  }
-}
-
-/** Committed fold results, read without writing; -1 while the store is missing or not yet readable. */
-function storedFoldResults(runDir: string): number {
-  if (!RunStore.exists(runDir)) return -1;
-  try {
-    const store = RunStore.open(runDir, { readonly: true });
-    try {
-      return store.foldScores().length;
-    } finally {
-      store.close();
-    }
-  } catch {
-    return -1;
-  }
-}
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
@@ -64,7 +38,7 @@ function killMoments(seed: number): Moment[] {
 
 async function killAt(child: ChildProcess, exited: Promise<number | null>, runDir: string, moment: Moment): Promise<"killed" | "finished"> {
   // One new fold result per count-based kill where possible (so kills land after real progress), never the last one.
-  const target = moment.kind === "folds" ? Math.min(TRIALS * FOLDS - 1, Math.max(moment.atLeast, storedFoldResults(runDir) + 1)) : 0;
+  const target = moment.kind === "folds" ? Math.min(TRIALS * FOLDS - 1, Math.max(moment.atLeast, storedFolds(runDir) + 1)) : 0;
   let finished = false;
   void exited.then(() => {
     finished = true;
@@ -72,7 +46,7 @@ async function killAt(child: ChildProcess, exited: Promise<number | null>, runDi
   if (moment.kind === "delay") {
     await Promise.race([sleep(moment.ms), exited]);
   } else {
-    while (!finished && storedFoldResults(runDir) < target) await sleep(15);
+    while (!finished && storedFolds(runDir) < target) await sleep(15);
   }
   if (finished) return "finished";
   child.kill("SIGKILL");

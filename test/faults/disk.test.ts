@@ -3,7 +3,7 @@ import { statSync } from "node:fs";
 import { join } from "node:path";
 import { RunStore } from "@nightshift/store";
 import { describe, expect, it } from "vitest";
-import { CLI, nightshift, nightshiftAsync, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
+import { CLI, nightshift, nightshiftAsync, storedFolds, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 
 const PLAN = `name: disk-full
 seed: 7
@@ -31,20 +31,6 @@ function snapshot(runDir: string): Snapshot {
   }
 }
 
-function storedFoldResults(runDir: string): number {
-  if (!RunStore.exists(runDir)) return 0;
-  try {
-    const store = RunStore.open(runDir, { readonly: true });
-    try {
-      return store.foldScores().length;
-    } finally {
-      store.close();
-    }
-  } catch {
-    return 0;
-  }
-}
-
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
 /**
@@ -65,7 +51,7 @@ describe("the disk stops taking writes mid-run", () => {
     const stderr: Buffer[] = [];
     child.stderr?.on("data", (b: Buffer) => stderr.push(b));
     const exited = new Promise<number | null>((r) => child.on("exit", (code) => r(code)));
-    while (storedFoldResults(runDir) < 6) await sleep(15);
+    while (storedFolds(runDir) < 6) await sleep(15);
     const file = join(runDir, "run.sqlite");
     // The smaller of the two files' sizes: the next write that grows either file fails.
     const limit = Math.min(statSync(file).size, statSync(`${file}-wal`).size);

@@ -3,10 +3,11 @@ import { randomBytes } from "node:crypto";
 import { readFileSync } from "node:fs";
 import { createServer } from "node:net";
 import { resolve } from "node:path";
-import { RunStore } from "@nightshift/store";
 import { checkRedis, redisEndpoint } from "@nightshift/worker";
 import { Redis } from "ioredis";
 import { CLI } from "../e2e/helpers.js";
+
+export { allPredictions, storedFolds } from "../e2e/helpers.js";
 
 /**
  * Redis for the distributed-mode tests: REDIS_URL, else 127.0.0.1:6379, else a
@@ -175,30 +176,4 @@ export async function stopAll(processes: readonly Spawned[]): Promise<void> {
       await p.exited;
     }),
   );
-}
-
-/** How many fold results a run folder holds (0 while its store does not exist yet). */
-export function storedFolds(runDir: string): number {
-  if (!RunStore.exists(runDir)) return 0;
-  try {
-    const store = RunStore.open(runDir, { readonly: true });
-    try {
-      return store.foldScores().length;
-    } finally {
-      store.close();
-    }
-  } catch {
-    return 0;
-  }
-}
-
-export function allPredictions(runDir: string): Record<string, number[]> {
-  const store = RunStore.open(runDir, { readonly: true });
-  try {
-    const out: Record<string, number[]> = {};
-    for (const t of store.trials()) for (const [fold, oof] of store.outOfFold(t.trial)) out[`${t.trial}/${fold}`] = Array.from(oof);
-    return out;
-  } finally {
-    store.close();
-  }
 }
