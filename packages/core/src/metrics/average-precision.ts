@@ -1,6 +1,5 @@
 import { type MetricScratch, sharedScratch } from "./scratch.js";
-import { type ThresholdCounts, countByThreshold, countColumnByThreshold } from "./threshold-counts.js";
-import { checkClassPredictions } from "./prediction-shape.js";
+import { type ThresholdCounts, countByThreshold, macroOverClasses } from "./threshold-counts.js";
 
 /**
  * Average precision as scikit-learn defines it (`average_precision_score`):
@@ -47,15 +46,5 @@ export function macroAveragePrecision(
   width: number,
   scratch: MetricScratch = sharedScratch,
 ): number {
-  checkClassPredictions(y, predictions, width);
-  if (width === 2) return averagePrecisionOf(countColumnByThreshold(y, predictions, 2, 1, false, scratch));
-  let sum = 0;
-  let classes = 0;
-  for (let c = 0; c < width; c++) {
-    const counts = countColumnByThreshold(y, predictions, width, c, false, scratch);
-    if (counts.positives === 0) continue;
-    sum += averagePrecisionOf(counts);
-    classes++;
-  }
-  return classes === 0 ? Number.NaN : sum / classes;
+  return macroOverClasses(y, predictions, width, scratch, averagePrecisionOf, (counts) => counts.positives > 0);
 }

@@ -1,6 +1,5 @@
 import { type MetricScratch, sharedScratch } from "./scratch.js";
-import { type ThresholdCounts, countByThreshold, countColumnByThreshold } from "./threshold-counts.js";
-import { checkClassPredictions } from "./prediction-shape.js";
+import { type ThresholdCounts, countByThreshold, macroOverClasses } from "./threshold-counts.js";
 
 /**
  * Area under the ROC curve by the trapezoid rule over the distinct-threshold points, as
@@ -49,15 +48,5 @@ export function macroRocAucOneVsRest(
   width: number,
   scratch: MetricScratch = sharedScratch,
 ): number {
-  checkClassPredictions(y, predictions, width);
-  if (width === 2) return rocAucOf(countColumnByThreshold(y, predictions, 2, 1, false, scratch));
-  let sum = 0;
-  let classes = 0;
-  for (let c = 0; c < width; c++) {
-    const counts = countColumnByThreshold(y, predictions, width, c, false, scratch);
-    if (counts.positives === 0 || counts.negatives === 0) continue;
-    sum += rocAucOf(counts);
-    classes++;
-  }
-  return classes === 0 ? Number.NaN : sum / classes;
+  return macroOverClasses(y, predictions, width, scratch, rocAucOf, (counts) => counts.positives > 0 && counts.negatives > 0);
 }

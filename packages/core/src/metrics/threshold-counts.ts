@@ -1,5 +1,6 @@
 import { type MetricScratch, sharedScratch } from "./scratch.js";
 import { SORT_COUNTS_LENGTH, sortFloat64Ascending } from "./float-sort.js";
+import { checkClassPredictions } from "./prediction-shape.js";
 
 /**
  * Cumulative counts at each distinct score, highest score first: row k says how many positives
@@ -112,4 +113,31 @@ function countSplit(positives: number, n: number, withThresholds: boolean, scrat
     length++;
   }
   return { length, positives, negatives, truePositives, falsePositives, thresholds };
+}
+
+/**
+ * The unweighted ('macro') mean of a ranking metric over the one-vs-rest columns of a
+ * row-major probability matrix; binary (width 2) scores column 1 for class 1 alone.
+ * Classes for which `defined` says the metric has no value are left out of the mean
+ * (scikit-learn refuses such input); NaN if no class is left.
+ */
+export function macroOverClasses(
+  y: Int32Array,
+  predictions: Float64Array,
+  width: number,
+  scratch: MetricScratch,
+  metric: (counts: ThresholdCounts) => number,
+  defined: (counts: ThresholdCounts) => boolean,
+): number {
+  checkClassPredictions(y, predictions, width);
+  if (width === 2) return metric(countColumnByThreshold(y, predictions, 2, 1, false, scratch));
+  let sum = 0;
+  let classes = 0;
+  for (let c = 0; c < width; c++) {
+    const counts = countColumnByThreshold(y, predictions, width, c, false, scratch);
+    if (!defined(counts)) continue;
+    sum += metric(counts);
+    classes++;
+  }
+  return classes === 0 ? Number.NaN : sum / classes;
 }
