@@ -1,4 +1,4 @@
-import { allRows, createRng, type CategoricalColumn, type FeatureColumn, type NumericColumn, type Task, type TrainView } from "@nightshift/core";
+import { allRows, averagePrecision as coreAveragePrecision, createRng, type CategoricalColumn, type FeatureColumn, type NumericColumn, type Task, type TrainView } from "@nightshift/core";
 
 export const numeric = (name: string, values: ArrayLike<number>): NumericColumn => ({ name, kind: "numeric", values: Float64Array.from(values) });
 
@@ -38,30 +38,9 @@ export function gaussianClasses(centres: number[][], perClass: number[], spread:
   return { columns: values.map((v, j) => numeric(`x${j}`, v)), codes };
 }
 
-/**
- * Average precision as scikit-learn defines it (METHODS.md §5): rows sorted by score descending,
- * tied scores form one threshold, AP = Σ (R_n − R_{n−1})·P_n with no interpolation.
- */
+/** Core's average precision (scikit-learn's definition) on boolean labels and any numeric scores. */
 export function averagePrecision(positive: ArrayLike<boolean>, scores: ArrayLike<number>): number {
-  const order = Array.from({ length: scores.length }, (_, i) => i).sort((a, b) => scores[b] - scores[a]);
-  let positives = 0;
-  for (let i = 0; i < positive.length; i++) if (positive[i]) positives++;
-  let tp = 0;
-  let seen = 0;
-  let ap = 0;
-  let previousRecall = 0;
-  for (let i = 0; i < order.length; ) {
-    const score = scores[order[i]];
-    while (i < order.length && scores[order[i]] === score) {
-      if (positive[order[i]]) tp++;
-      seen++;
-      i++;
-    }
-    const recall = tp / positives;
-    ap += (recall - previousRecall) * (tp / seen);
-    previousRecall = recall;
-  }
-  return ap;
+  return coreAveragePrecision(Uint8Array.from(Array.from(positive, Number)), Float64Array.from(scores));
 }
 
 /** Column `c` of a row-major matrix of width `width`. */
