@@ -91,6 +91,7 @@ function guardWrite<T>(file: string, write: () => T): T {
   try {
     return write();
   } catch (error) {
+    if (error instanceof StoreWriteError) throw error;
     const code = (error as { code?: unknown }).code;
     if (typeof code === "string" && DISK_CODES.test(code)) throw new StoreWriteError(file, code, (error as Error).message);
     throw error;
@@ -292,12 +293,26 @@ export class RunStore {
     return rows.map((r) => ({ ...r, data: JSON.parse(r.data) as Record<string, unknown> }));
   }
 
+  /**
+   * Runs several writes as one transaction: all of them are stored or none (a failed write, a full
+   * disk or a killed process leaves none). Writes inside may be any of this store's methods.
+   */
+  atomically<T>(writes: () => T): T {
+    return guardWrite(this.file, () => this.db.transaction(writes)());
+  }
+
   /** Named results of later steps (ensembles, hold-out opening): JSON text, written once or replaced. */
   putArtifact(name: string, kind: string, data: unknown): void {
     guardWrite(this.file, () => {
       this.db
         .prepare("INSERT INTO artifacts (name, kind, data, created_at) VALUES (?, ?, ?, ?) ON CONFLICT(name) DO UPDATE SET kind = excluded.kind, data = excluded.data, created_at = excluded.created_at")
         .run(name, kind, JSON.stringify(data), new Date().toISOString());
+    });
+  }
+
+  deleteArtifact(name: string): void {
+    guardWrite(this.file, () => {
+      this.db.prepare("DELETE FROM artifacts WHERE name = ?").run(name);
     });
   }
 
