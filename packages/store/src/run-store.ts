@@ -1,5 +1,5 @@
 import { existsSync, mkdirSync } from "node:fs";
-import { join } from "node:path";
+import { dirname, join } from "node:path";
 import Database from "better-sqlite3";
 
 /** Status of a trial on the board (DESIGN.md, machine-readable output). */
@@ -98,6 +98,23 @@ function guardWrite<T>(file: string, write: () => T): T {
   }
 }
 
+/**
+ * `mkdir -p` that reports why the file system refused: Node's recursive mkdir says ENOENT when a
+ * read-only file system refuses the new folder, so the nearest missing folder is made on its own
+ * to get the real reason (EROFS, EACCES, ENOSPC), with its path.
+ */
+function makeFolder(folder: string): void {
+  try {
+    mkdirSync(folder, { recursive: true });
+  } catch (error) {
+    if ((error as NodeJS.ErrnoException).code !== "ENOENT") throw error;
+    let missing = folder;
+    while (!existsSync(dirname(missing)) && dirname(missing) !== missing) missing = dirname(missing);
+    mkdirSync(missing);
+    mkdirSync(folder, { recursive: true });
+  }
+}
+
 function toBlob(values: Float32Array | Uint32Array): Buffer {
   return Buffer.from(values.buffer, values.byteOffset, values.byteLength);
 }
@@ -139,7 +156,7 @@ export class RunStore {
     const file = join(folder, STORE_FILE);
     if (!existsSync(file)) {
       if (!options.create) throw new Error(`${folder}: no run store (${STORE_FILE}) in this folder`);
-      mkdirSync(folder, { recursive: true });
+      makeFolder(folder);
     }
     const db = new Database(file, { readonly: options.readonly ?? false, fileMustExist: !options.create });
     if (!options.readonly) {
