@@ -149,14 +149,25 @@ class SmallDisk {
     return { code: r.status, stdout: r.stdout, stderr: r.stderr };
   }
 
-  /** What the disk tests read from a run store on this disk, read inside the namespace (see store-probe.mjs). */
-  probe(runDir: string, mode: "poll"): Probe;
-  probe(runDir: string, mode: "full"): Probe & Required<Omit<Probe, "openedAt">> & Pick<Probe, "openedAt">;
-  probe(runDir: string, mode: "poll" | "full"): Probe {
-    const [file, argv] = this.enter([process.execPath, PROBE, runDir, mode], REPO);
+  /** What the disk tests check in a run store on this disk, read inside the namespace (see store-probe.mjs). */
+  stored(runDir: string): Stored {
+    const [file, argv] = this.enter([process.execPath, PROBE, runDir, "full"], REPO);
     const r = spawnSync(file, argv, { cwd: REPO, encoding: "utf8" });
     if (r.status !== 0) throw new Error(`store probe failed: ${r.stderr}`);
-    return JSON.parse(r.stdout) as Probe;
+    return JSON.parse(r.stdout) as Stored;
+  }
+
+  /**
+   * Waits, polling inside the namespace, until the store has `until` ("folds=6": at least 6 fold results;
+   * "state=finished": the search has finished); false if `run` ended first.
+   */
+  async waitUntil(runDir: string, until: string, run: { exited: Promise<unknown> }): Promise<boolean> {
+    const [file, argv] = this.enter([process.execPath, PROBE, runDir, until], REPO);
+    const probe = spawn(file, argv, { cwd: REPO, stdio: ["ignore", "ignore", "inherit"] });
+    const probed = new Promise<boolean>((r) => probe.on("exit", (code) => r(code === 0)));
+    const reached = await Promise.race([probed, run.exited.then(() => false)]);
+    probe.kill("SIGKILL");
+    return reached;
   }
 
   remount(mode: "ro" | "rw"): void {
@@ -173,12 +184,10 @@ class SmallDisk {
 const REPO = resolve(__dirname, "../..");
 const PROBE = join(__dirname, "store-probe.mjs");
 
-interface Probe extends Partial<Snapshot> {
-  readonly exists: boolean;
-  readonly folds?: number;
-  readonly state?: string | null;
-  readonly integrity?: string;
-  readonly openings?: number;
+interface Stored extends Snapshot {
+  readonly integrity: string;
+  /** How often the hold-out was opened (holdout_opened events), and the recorded opening time. */
+  readonly openings: number;
   readonly openedAt?: unknown;
 }
 
@@ -202,8 +211,9 @@ function setUp(prefix: string, args: string[]): { dir: string; planPath: string;
 /** When the disk fills: after at least this many committed fold results, or once the search has finished (in the final step). */
 type FillMoment = { folds: number } | "final step";
 
-// One moment in the search and one in the final step; under soak, more moments spread over the search.
-const FILL_MOMENTS: FillMoment[] = [...Array.from({ length: soakCount(1) }, (_, i) => ({ folds: 6 + Math.floor((i * 17) / SOAK_FACTOR) })), "final step"];
+// One moment in the search and one in the final step; under soak, more moments spread over the search
+// (up to 16 of its 24 fold results, so that the fill lands before the search ends on a fast machine too).
+const FILL_MOMENTS: FillMoment[] = [...Array.from({ length: soakCount(1) }, (_, i) => ({ folds: 6 + Math.floor((i * 10) / SOAK_FACTOR) })), "final step"];
 
 describe("a real full disk mid-run (a small tmpfs)", () => {
   for (const moment of FILL_MOMENTS) {
@@ -216,12 +226,8 @@ describe("a real full disk mid-run (a small tmpfs)", () => {
 
       const child = disk.runAsync(["run", planPath, "--run-dir", runDir, ...WHOLE, "--quiet"], dir);
       const run = waitExit(child);
-      const reached = (): boolean => {
-        const now = disk.probe(runDir, "poll");
-        return moment === "final step" ? now.state === "finished" : (now.folds ?? 0) >= moment.folds;
-      };
-      while (!run.done() && !reached()) await sleep(10);
-      expect(run.done(), "the run ended before the disk was filled").toBe(false);
+      const reached = await disk.waitUntil(runDir, moment === "final step" ? "state=finished" : `folds=${moment.folds}`, run);
+      expect(reached && !run.done(), "the run ended before the disk was filled").toBe(true);
       const filler = disk.outside("filler");
       expect(fillDisk(filler)).toBeGreaterThan(0);
       const code = await run.exited;
@@ -229,7 +235,7 @@ describe("a real full disk mid-run (a small tmpfs)", () => {
       expect(code).toBe(1);
       expect(run.stderr()).toMatch(DISK_LINE);
       expect(run.stderr()).toMatch(/SQLITE_FULL|ENOSPC/);
-      const stored = disk.probe(runDir, "full");
+      const stored = disk.stored(runDir);
       expect(stored.integrity).toBe("ok");
       if (moment !== "final step") {
         expect(stored.scores.length).toBeGreaterThanOrEqual(moment.folds);
@@ -243,7 +249,7 @@ describe("a real full disk mid-run (a small tmpfs)", () => {
       expect(resumed.stderr).toBe("");
       expect(resumed.code).toBe(0);
       expect(withoutTimings(JSON.parse(resumed.stdout))).toEqual(withoutTimings(JSON.parse(reference.stdout)));
-      const after = disk.probe(runDir, "full");
+      const after = disk.stored(runDir);
       for (const row of stored.scores) expect(after.scores).toContainEqual(row);
       for (const [key, oof] of Object.entries(stored.predictions)) expect(after.predictions[key]).toEqual(oof);
       expect(after.predictions).toEqual(snapshot(referenceDir).predictions);
@@ -266,11 +272,10 @@ describe("a run folder on a disk remounted read-only", () => {
     // A run stopped mid-search (killed: its write-ahead log still holds the last commits).
     const child = disk.runAsync(["run", planPath, "--run-dir", runDir, ...SEARCH_ONLY, "--quiet"], dir);
     const run = waitExit(child);
-    while (!run.done() && (disk.probe(runDir, "poll").folds ?? 0) < 6) await sleep(10);
-    expect(run.done()).toBe(false);
+    expect(await disk.waitUntil(runDir, "folds=6", run)).toBe(true);
     child.kill("SIGKILL");
     await run.exited;
-    const stored = disk.probe(runDir, "full");
+    const stored = disk.stored(runDir);
     const hashes = fileHashes(disk.outside("run"));
 
     // Linux refuses to remount read-only while a file on it is open for writing: the run is stopped first.
@@ -292,7 +297,7 @@ describe("a run folder on a disk remounted read-only", () => {
     expect(resumed.stderr).toBe("");
     expect(resumed.code).toBe(0);
     expect(withoutTimings(JSON.parse(resumed.stdout))).toEqual(withoutTimings(JSON.parse(reference.stdout)));
-    const after = disk.probe(runDir, "full");
+    const after = disk.stored(runDir);
     for (const row of stored.scores) expect(after.scores).toContainEqual(row);
     expect(after.predictions).toEqual(snapshot(referenceDir).predictions);
     expect(after.integrity).toBe("ok");

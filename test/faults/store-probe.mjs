@@ -1,17 +1,25 @@
 // Reads a run store and prints what the disk tests check, as one JSON line. The disk tests run it inside
 // the private mount namespace of their small disk: from outside, the store is reachable only through
 // /proc/<pid>/root, a link SQLite resolves to the wrong folder.
-// Usage: node store-probe.mjs <run folder> poll|full
+// Usage: node store-probe.mjs <run folder> full          the stored results, integrity, hold-out openings
+//        node store-probe.mjs <run folder> folds=<n>     waits until at least n fold results are stored
+//        node store-probe.mjs <run folder> state=<s>     waits until the run's state is s
 import { RunStore } from "@nightshift/store";
 
 const [runDir, mode] = process.argv.slice(2);
-if (!RunStore.exists(runDir)) {
-  console.log(JSON.stringify({ exists: false }));
-} else {
-  const store = RunStore.open(runDir, { readonly: true });
+
+function read(full) {
+  if (!RunStore.exists(runDir)) return { exists: false };
+  let store;
+  try {
+    store = RunStore.open(runDir, { readonly: true });
+  } catch (error) {
+    if (!full) return { exists: false };
+    throw error;
+  }
   try {
     const out = { exists: true, folds: store.foldScores().length, state: store.getMeta("state") ?? null };
-    if (mode === "full") {
+    if (full) {
       const predictions = {};
       for (const t of store.trials()) for (const [fold, oof] of store.outOfFold(t.trial)) predictions[`${t.trial}/${fold}`] = Array.from(oof);
       Object.assign(out, {
@@ -22,8 +30,21 @@ if (!RunStore.exists(runDir)) {
         openedAt: store.artifact("holdout")?.data?.opened_at,
       });
     }
-    console.log(JSON.stringify(out));
+    return out;
   } finally {
     store.close();
   }
+}
+
+if (mode === "full") {
+  console.log(JSON.stringify(read(true)));
+} else {
+  const [key, value] = mode.split("=");
+  const reached = (now) => now.exists && (key === "folds" ? now.folds >= Number(value) : now.state === value);
+  let now = read(false);
+  while (!reached(now)) {
+    await new Promise((r) => setTimeout(r, 10));
+    now = read(false);
+  }
+  console.log(JSON.stringify(now));
 }
