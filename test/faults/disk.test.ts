@@ -208,6 +208,26 @@ function setUp(prefix: string, args: string[]): { dir: string; planPath: string;
   return { dir, planPath, reference, referenceDir };
 }
 
+/** A resume that ended cleanly with the board of the uninterrupted reference run (timings aside). */
+function expectUninterrupted(resumed: CliResult, reference: CliResult): void {
+  expect(resumed.stderr).toBe("");
+  expect(resumed.code).toBe(0);
+  expect(withoutTimings(JSON.parse(resumed.stdout))).toEqual(withoutTimings(JSON.parse(reference.stdout)));
+}
+
+/** A small disk, and a coordinator started on it in the folder `run`, stopped when the store has `until` (see waitUntil). */
+async function runOnSmallDisk(prefix: string, args: string[], until: string) {
+  const setup = setUp(prefix, args);
+  const disk = await SmallDisk.mount(join(setup.dir, "disk"), "16m");
+  disks.push(disk);
+  const runDir = disk.inside("run");
+  const child = disk.runAsync(["run", setup.planPath, "--run-dir", runDir, ...args, "--quiet"], setup.dir);
+  const run = waitExit(child);
+  const reached = await disk.waitUntil(runDir, until, run);
+  expect(reached && !run.done(), `the run ended before its store had ${until}`).toBe(true);
+  return { ...setup, disk, runDir, child, run };
+}
+
 /** When the disk fills: after at least this many committed fold results, or once the search has finished (in the final step). */
 type FillMoment = { folds: number } | "final step";
 
@@ -219,15 +239,8 @@ describe("a real full disk mid-run (a small tmpfs)", () => {
   for (const moment of FILL_MOMENTS) {
     const when = moment === "final step" ? "in the final step" : `after ${moment.folds} fold results`;
     it(`filled ${when}: stops with one clear line, keeps what was stored, and resumes once space is back to the uninterrupted result`, async () => {
-      const { dir, planPath, reference, referenceDir } = setUp("diskfull", WHOLE);
-      const disk = await SmallDisk.mount(join(dir, "disk"), "16m");
-      disks.push(disk);
-      const runDir = disk.inside("run");
-
-      const child = disk.runAsync(["run", planPath, "--run-dir", runDir, ...WHOLE, "--quiet"], dir);
-      const run = waitExit(child);
-      const reached = await disk.waitUntil(runDir, moment === "final step" ? "state=finished" : `folds=${moment.folds}`, run);
-      expect(reached && !run.done(), "the run ended before the disk was filled").toBe(true);
+      const until = moment === "final step" ? "state=finished" : `folds=${moment.folds}`;
+      const { dir, planPath, reference, referenceDir, disk, runDir, run } = await runOnSmallDisk("diskfull", WHOLE, until);
       const filler = disk.outside("filler");
       expect(fillDisk(filler)).toBeGreaterThan(0);
       const code = await run.exited;
@@ -246,9 +259,7 @@ describe("a real full disk mid-run (a small tmpfs)", () => {
       // Space is back: the same command, on the same disk.
       rmSync(filler);
       const resumed = disk.run(["run", planPath, "--run-dir", runDir, ...WHOLE, "--json"], dir);
-      expect(resumed.stderr).toBe("");
-      expect(resumed.code).toBe(0);
-      expect(withoutTimings(JSON.parse(resumed.stdout))).toEqual(withoutTimings(JSON.parse(reference.stdout)));
+      expectUninterrupted(resumed, reference);
       const after = disk.stored(runDir);
       for (const row of stored.scores) expect(after.scores).toContainEqual(row);
       for (const [key, oof] of Object.entries(stored.predictions)) expect(after.predictions[key]).toEqual(oof);
@@ -264,15 +275,8 @@ describe("a real full disk mid-run (a small tmpfs)", () => {
 
 describe("a run folder on a disk remounted read-only", () => {
   it("refuses a resume (and a new run) with one clear line, changes nothing, and resumes once writable to the uninterrupted result", async () => {
-    const { dir, planPath, reference, referenceDir } = setUp("diskro", SEARCH_ONLY);
-    const disk = await SmallDisk.mount(join(dir, "disk"), "16m");
-    disks.push(disk);
-    const runDir = disk.inside("run");
-
     // A run stopped mid-search (killed: its write-ahead log still holds the last commits).
-    const child = disk.runAsync(["run", planPath, "--run-dir", runDir, ...SEARCH_ONLY, "--quiet"], dir);
-    const run = waitExit(child);
-    expect(await disk.waitUntil(runDir, "folds=6", run)).toBe(true);
+    const { dir, planPath, reference, referenceDir, disk, runDir, child, run } = await runOnSmallDisk("diskro", SEARCH_ONLY, "folds=6");
     child.kill("SIGKILL");
     await run.exited;
     const stored = disk.stored(runDir);
@@ -294,9 +298,7 @@ describe("a run folder on a disk remounted read-only", () => {
 
     disk.remount("rw");
     const resumed = disk.run(["run", planPath, "--run-dir", runDir, ...SEARCH_ONLY, "--json"], dir);
-    expect(resumed.stderr).toBe("");
-    expect(resumed.code).toBe(0);
-    expect(withoutTimings(JSON.parse(resumed.stdout))).toEqual(withoutTimings(JSON.parse(reference.stdout)));
+    expectUninterrupted(resumed, reference);
     const after = disk.stored(runDir);
     for (const row of stored.scores) expect(after.scores).toContainEqual(row);
     expect(after.predictions).toEqual(snapshot(referenceDir).predictions);
@@ -338,10 +340,8 @@ describe("a run folder made read-only mid-run", () => {
 
     chmodSync(runDir, 0o755);
     const again = asUser(["run", planPath, "--run-dir", runDir, ...WHOLE, "--json"]);
-    const resumed = spawnSync(again[0], again.slice(1), { cwd: dir, encoding: "utf8", env: { ...process.env, NO_COLOR: "1" } });
-    expect(resumed.stderr).toBe("");
-    expect(resumed.status).toBe(0);
-    expect(withoutTimings(JSON.parse(resumed.stdout))).toEqual(withoutTimings(JSON.parse(reference.stdout)));
+    const r = spawnSync(again[0], again.slice(1), { cwd: dir, encoding: "utf8", env: { ...process.env, NO_COLOR: "1" } });
+    expectUninterrupted({ code: r.status, stdout: r.stdout, stderr: r.stderr }, reference);
     expect(holdoutRecord(runDir)).toEqual(opened);
     expect(exportedWithoutTime(runDir)).toEqual(exportedWithoutTime(referenceDir));
     expect(snapshot(runDir).predictions).toEqual(snapshot(referenceDir).predictions);
@@ -378,9 +378,7 @@ describe("a file-size limit reached mid-run", () => {
     expect(readStore(runDir, (s) => s.integrityCheck())).toBe("ok");
 
     const resumed = nightshift(["run", planPath, "--run-dir", runDir, ...SEARCH_ONLY, "--json"], dir);
-    expect(resumed.stderr).toBe("");
-    expect(resumed.code).toBe(0);
-    expect(withoutTimings(JSON.parse(resumed.stdout))).toEqual(withoutTimings(JSON.parse(reference.stdout)));
+    expectUninterrupted(resumed, reference);
     const after = snapshot(runDir);
     for (const row of stored.scores) expect(after.scores).toContainEqual(row);
     for (const [key, oof] of Object.entries(stored.predictions)) expect(after.predictions[key]).toEqual(oof);

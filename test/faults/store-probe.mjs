@@ -8,15 +8,19 @@ import { RunStore } from "@nightshift/store";
 
 const [runDir, mode] = process.argv.slice(2);
 
+/** What is stored; while waiting, a store not yet created or without its schema counts as absent. */
 function read(full) {
-  if (!RunStore.exists(runDir)) return { exists: false };
-  let store;
+  if (full) return readStore(true);
   try {
-    store = RunStore.open(runDir, { readonly: true });
-  } catch (error) {
-    if (!full) return { exists: false };
-    throw error;
+    return readStore(false);
+  } catch {
+    return { exists: false };
   }
+}
+
+function readStore(full) {
+  if (!RunStore.exists(runDir)) return { exists: false };
+  const store = RunStore.open(runDir, { readonly: true });
   try {
     const out = { exists: true, folds: store.foldScores().length, state: store.getMeta("state") ?? null };
     if (full) {
