@@ -8,6 +8,7 @@ import { InputError } from "../../packages/core/src/errors.js";
 import { MISSING_CODE } from "../../packages/core/src/frame.js";
 import { parsePlan } from "../../packages/core/src/plan/read-plan.js";
 import { nightshift, tempDir as makeTempDir, writeSmallTurbines } from "../e2e/helpers.js";
+import { fuzzRuns } from "./soak.js";
 
 const scratch: string[] = [];
 afterAll(() => {
@@ -95,7 +96,7 @@ describe("malformed CSV", () => {
       fc.property(malformedCsv, targetOptions, (text, options) => {
         expectResultOrInputError(() => parseCsvDataset(text, "fuzz.csv", options), "fuzz.csv");
       }),
-      { seed: 8_001, numRuns: 3000 },
+      fuzzRuns(8_001, 3000),
     );
   });
 });
@@ -122,7 +123,7 @@ describe("malformed CSV files read by streaming", () => {
         const expected = inMemory.error instanceof InputError ? { message: inMemory.error.message.slice(path.length) } : { fingerprint: inMemory.value!.fingerprint };
         expect(streamed).toEqual(expected);
       }),
-      { seed: 8_009, numRuns: 400 },
+      fuzzRuns(8_009, 400),
     );
   });
 });
@@ -187,7 +188,7 @@ describe("hostile plans", () => {
         expect(outcome.error.message).toMatch(/^hostile\.plan\.yaml(:\d+:\d+)?: /);
         expect(({} as Record<string, unknown>).polluted).toBeUndefined();
       }),
-      { seed: 8_010, numRuns: 300 },
+      fuzzRuns(8_010, 300),
     );
   });
 });
@@ -208,7 +209,7 @@ describe("malformed plans", () => {
         const named = edits.some(([path]) => outcome.error instanceof Error && outcome.error.message.includes(path.split(".")[0]));
         expect(named).toBe(true);
       }),
-      { seed: 8_003, numRuns: 2000 },
+      fuzzRuns(8_003, 2000),
     );
   });
 
@@ -222,7 +223,7 @@ describe("malformed plans", () => {
         expect(outcome.error.message.startsWith("fuzz.plan.yaml")).toBe(true);
         if (/not valid YAML/.test(outcome.error.message)) expect(outcome.error.message).toMatch(/^fuzz\.plan\.yaml:\d+:\d+: /);
       }),
-      { seed: 8_004, numRuns: 2000 },
+      fuzzRuns(8_004, 2000),
     );
   });
 });
@@ -333,7 +334,7 @@ describe("valid generated CSV", () => {
           kept.forEach((r, i) => expect(target.values[i]).toBe(table.target.cells[r]));
         }
       }),
-      { seed: 8_002, numRuns: 1000 },
+      fuzzRuns(8_002, 1000),
     );
   });
 });
@@ -397,7 +398,7 @@ describe("valid CSV broken in one place", () => {
         expect(outcome.error.message.startsWith("broken.csv")).toBe(true);
         if (/fields|quote/i.test(outcome.error.message)) expect(outcome.error.message).toMatch(/^broken\.csv:\d+/);
       }),
-      { seed: 8_005, numRuns: 2500 },
+      fuzzRuns(8_005, 2500),
     );
   });
 });
@@ -418,7 +419,7 @@ describe("a ragged row", () => {
         expect(outcome.error).toBeInstanceOf(InputError);
         expect((outcome.error as Error).message).toMatch(new RegExp(`^ragged\\.csv:${row + 1}: this row has \\d+ fields but the header has ${table.features.length + 1}`));
       }),
-      { seed: 8_011, numRuns: 500 },
+      fuzzRuns(8_011, 500),
     );
   });
 });
@@ -436,7 +437,7 @@ describe("a file with nothing to learn from", () => {
         expect(outcome.error).toBeInstanceOf(InputError);
         expect((outcome.error as Error).message).toMatch(/^lonely\.csv:1: no feature columns/);
       }),
-      { seed: 8_006, numRuns: 300 },
+      fuzzRuns(8_006, 300),
     );
   });
 });

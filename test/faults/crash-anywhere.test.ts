@@ -4,6 +4,7 @@ import { createRng } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
 import { describe, expect, it } from "vitest";
 import { allPredictions, nightshift, nightshiftAsync, storedFolds, SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
+import { soakSeeds } from "./soak.js";
 
 // Enough fold jobs (36) that 20 kills rarely run out of work even when resumes are quick.
 const TRIALS = 12;
@@ -54,7 +55,8 @@ async function killAt(child: ChildProcess, exited: Promise<number | null>, runDi
   return "killed";
 }
 
-describe("crash anywhere (local mode)", () => {
+// One seed; `npm run soak` runs SOAK_FACTOR seeds (each its own 20 kill moments).
+describe.each(soakSeeds(2026))("crash anywhere (local mode), seed %i", (seed) => {
   it(`ends, after ${KILLS} SIGKILLs at seeded-random moments and a resume after each, with the board and predictions of an uninterrupted run`, async () => {
     const dir = tempDir("crash");
     writeSmallTurbines(dir);
@@ -65,7 +67,7 @@ describe("crash anywhere (local mode)", () => {
 
     const runDir = join(dir, "killed");
     let kills = 0;
-    for (const moment of killMoments(2026)) {
+    for (const moment of killMoments(seed)) {
       const child = nightshiftAsync(["run", planPath, "--run-dir", runDir, ...RUN_ARGS, "--quiet"], dir);
       const stderr: Buffer[] = [];
       child.stderr?.on("data", (b: Buffer) => stderr.push(b));

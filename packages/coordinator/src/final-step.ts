@@ -1,4 +1,4 @@
-import { existsSync, readFileSync, renameSync, writeFileSync } from "node:fs";
+import { existsSync, readFileSync, renameSync, rmSync, writeFileSync } from "node:fs";
 import { join, resolve } from "node:path";
 import {
   buildEnsembles,
@@ -43,6 +43,11 @@ import { createLocalPool } from "./local-pool.js";
 export const ENSEMBLE_FILE = "ensemble.json";
 export const HOLDOUT_PACK_FILE = "holdout.pack";
 export const TRAINING_PACK_FILE = "dataset.pack";
+/**
+ * Artifact holding the exported predictor between the hold-out's opening and the writing of
+ * ensemble.json: recorded in the opening's transaction, removed when the step is marked done.
+ */
+const PENDING_EXPORT = "export.pending";
 /** Repeats of each feature's shuffle for permutation importance (scikit-learn's default). */
 export const IMPORTANCE_REPEATS = 5;
 
@@ -104,6 +109,11 @@ interface Candidate {
  *    the exported predictor is measured there, and the opening time is recorded. Nothing is
  *    chosen after this point, so the hold-out scores cannot change the choice.
  * 5. `ensemble.json` is written; the step is marked done.
+ *
+ * The opening's results (scores, importance, the exported predictor with its hold-out score) are
+ * recorded in one transaction before `ensemble.json` is written. A step that fails after that
+ * (a full or read-only disk refusing the file, a killed process) is resumed from the record: the
+ * file is written from it and the hold-out is not opened a second time.
  */
 export async function runFinalStep(options: FinalStepOptions): Promise<FinalStepResult> {
   const runDir = resolve(options.runDir);
@@ -112,6 +122,11 @@ export async function runFinalStep(options: FinalStepOptions): Promise<FinalStep
   try {
     if (store.getMeta("final_step") === "done") return { status: "already_done", message: null, final: store.getMeta("final_predictor") ?? null, exported: existsSync(join(runDir, ENSEMBLE_FILE)) ? join(runDir, ENSEMBLE_FILE) : null, notes: [] };
     if (store.getMeta("state") !== "finished") throw new InputError(runDir, "the search of this run has not finished; resume it with nightshift run first");
+    const pending = store.artifact(PENDING_EXPORT);
+    if (pending) {
+      const { final, notes, ensemble } = pending.data as { final: string; notes: string[]; ensemble: unknown };
+      return finish(store, runDir, ExportedEnsembleSchema.parse(ensemble), final, notes);
+    }
     const facts = runFacts(store);
     const metric = metricByName(facts.metric);
     const plan = frozenPlan(store.getMeta("plan"));
@@ -216,24 +231,56 @@ export async function runFinalStep(options: FinalStepOptions): Promise<FinalStep
         baseline: finiteOrNull(importance.baseline),
         features: importance.features.map((f) => ({ name: f.name, mean: finiteOrNull(f.mean), std: finiteOrNull(f.std) })).sort((a, b) => (b.mean ?? -Infinity) - (a.mean ?? -Infinity)),
       };
-      store.putArtifact("importance", "importance", ImportanceSchema.parse(importanceArtifact));
       const holdoutArtifact: Holdout = { opened_at: openedAt, scores, rows: holdout.rowCount, final: chosen.name };
-      store.putArtifact("holdout", "holdout", HoldoutSchema.parse(holdoutArtifact));
-      store.addEvent("holdout_opened", { opened_at: openedAt, rows: holdout.rowCount, final: chosen.name, score: holdoutScore });
+      const exported = withHoldout(exportOf(chosen), holdoutScore);
+      // The opening is recorded whole or not at all, with the predictor it scored.
+      store.atomically(() => {
+        store.putArtifact("importance", "importance", ImportanceSchema.parse(importanceArtifact));
+        store.putArtifact("holdout", "holdout", HoldoutSchema.parse(holdoutArtifact));
+        store.addEvent("holdout_opened", { opened_at: openedAt, rows: holdout.rowCount, final: chosen.name, score: holdoutScore });
+        recordPending(store, exported, chosen.name, notes);
+      });
+      return finish(store, runDir, exported, chosen.name, notes);
     }
-
-    const exported = ExportedEnsembleSchema.parse({ ...exportOf(chosen), estimates: { ...exportOf(chosen).estimates, holdout: holdoutScore } });
-    const file = join(runDir, ENSEMBLE_FILE);
-    writeFileSync(`${file}.tmp`, JSON.stringify(exported));
-    renameSync(`${file}.tmp`, file);
-    store.setMeta("final_predictor", chosen.name);
-    store.setMeta("final_step", "done");
-    store.addEvent("final_step", { status: "done", final: chosen.name, notes });
-    return { status: "done", message: null, final: chosen.name, exported: file, notes };
+    const exported = withHoldout(exportOf(chosen), null);
+    recordPending(store, exported, chosen.name, notes);
+    return finish(store, runDir, exported, chosen.name, notes);
   } finally {
     await ownRunner?.close();
     if (!options.store) store.close();
   }
+}
+
+function withHoldout(exported: ExportedEnsemble, holdout: number | null): ExportedEnsemble {
+  return ExportedEnsembleSchema.parse({ ...exported, estimates: { ...exported.estimates, holdout } });
+}
+
+function recordPending(store: RunStore, ensemble: ExportedEnsemble, final: string, notes: readonly string[]): void {
+  store.putArtifact(PENDING_EXPORT, "export", { final, notes, ensemble });
+}
+
+/** Writes ensemble.json from the recorded export (atomically: a temporary file renamed), then marks the step done. */
+function finish(store: RunStore, runDir: string, exported: ExportedEnsemble, final: string, notes: readonly string[]): FinalStepResult {
+  const file = join(runDir, ENSEMBLE_FILE);
+  try {
+    writeFileSync(`${file}.tmp`, JSON.stringify(exported));
+    renameSync(`${file}.tmp`, file);
+  } catch (error) {
+    // A full disk keeps no partial file; the record in the store is what a resume writes from.
+    try {
+      rmSync(`${file}.tmp`, { force: true });
+    } catch {
+      // A read-only folder has no partial file to remove.
+    }
+    throw error;
+  }
+  store.atomically(() => {
+    store.setMeta("final_predictor", final);
+    store.setMeta("final_step", "done");
+    store.deleteArtifact(PENDING_EXPORT);
+    store.addEvent("final_step", { status: "done", final, notes });
+  });
+  return { status: "done", message: null, final, exported: file, notes };
 }
 
 /** The build's choice if it can be exported, else the next best exportable by nested estimate (the single trial first among equals). */

@@ -1,5 +1,5 @@
 import { existsSync, mkdirSync } from "node:fs";
-import { join } from "node:path";
+import { dirname, join } from "node:path";
 import Database from "better-sqlite3";
 
 /** Status of a trial on the board (DESIGN.md, machine-readable output). */
@@ -91,9 +91,27 @@ function guardWrite<T>(file: string, write: () => T): T {
   try {
     return write();
   } catch (error) {
+    if (error instanceof StoreWriteError) throw error;
     const code = (error as { code?: unknown }).code;
     if (typeof code === "string" && DISK_CODES.test(code)) throw new StoreWriteError(file, code, (error as Error).message);
     throw error;
+  }
+}
+
+/**
+ * `mkdir -p` that reports why the file system refused: Node's recursive mkdir says ENOENT when a
+ * read-only file system refuses the new folder, so the nearest missing folder is made on its own
+ * to get the real reason (EROFS, EACCES, ENOSPC), with its path.
+ */
+function makeFolder(folder: string): void {
+  try {
+    mkdirSync(folder, { recursive: true });
+  } catch (error) {
+    if ((error as NodeJS.ErrnoException).code !== "ENOENT") throw error;
+    let missing = folder;
+    while (!existsSync(dirname(missing)) && dirname(missing) !== missing) missing = dirname(missing);
+    mkdirSync(missing);
+    mkdirSync(folder, { recursive: true });
   }
 }
 
@@ -138,7 +156,7 @@ export class RunStore {
     const file = join(folder, STORE_FILE);
     if (!existsSync(file)) {
       if (!options.create) throw new Error(`${folder}: no run store (${STORE_FILE}) in this folder`);
-      mkdirSync(folder, { recursive: true });
+      makeFolder(folder);
     }
     const db = new Database(file, { readonly: options.readonly ?? false, fileMustExist: !options.create });
     if (!options.readonly) {
@@ -292,12 +310,26 @@ export class RunStore {
     return rows.map((r) => ({ ...r, data: JSON.parse(r.data) as Record<string, unknown> }));
   }
 
+  /**
+   * Runs several writes as one transaction: all of them are stored or none (a failed write, a full
+   * disk or a killed process leaves none). Writes inside may be any of this store's methods.
+   */
+  atomically<T>(writes: () => T): T {
+    return guardWrite(this.file, () => this.db.transaction(writes)());
+  }
+
   /** Named results of later steps (ensembles, hold-out opening): JSON text, written once or replaced. */
   putArtifact(name: string, kind: string, data: unknown): void {
     guardWrite(this.file, () => {
       this.db
         .prepare("INSERT INTO artifacts (name, kind, data, created_at) VALUES (?, ?, ?, ?) ON CONFLICT(name) DO UPDATE SET kind = excluded.kind, data = excluded.data, created_at = excluded.created_at")
         .run(name, kind, JSON.stringify(data), new Date().toISOString());
+    });
+  }
+
+  deleteArtifact(name: string): void {
+    guardWrite(this.file, () => {
+      this.db.prepare("DELETE FROM artifacts WHERE name = ?").run(name);
     });
   }
 

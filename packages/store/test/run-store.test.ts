@@ -35,6 +35,27 @@ describe("run store", () => {
     store.close();
   });
 
+  it("stores the writes of one atomically call all together or not at all", () => {
+    const store = RunStore.open(freshFolder(), { create: true });
+    expect(() =>
+      store.atomically(() => {
+        store.putArtifact("holdout", "holdout", { opened_at: "t" });
+        store.addEvent("holdout_opened", {});
+        throw new Error("failed before the last write");
+      }),
+    ).toThrow("failed before the last write");
+    expect(store.artifact("holdout")).toBeUndefined();
+    expect(store.events().filter((e) => e.kind === "holdout_opened")).toHaveLength(0);
+    store.atomically(() => {
+      store.putArtifact("holdout", "holdout", { opened_at: "t" });
+      store.addEvent("holdout_opened", {});
+    });
+    expect(store.artifact("holdout")?.data).toEqual({ opened_at: "t" });
+    store.deleteArtifact("holdout");
+    expect(store.artifact("holdout")).toBeUndefined();
+    store.close();
+  });
+
   it("marks trials that halving drops as pruned", () => {
     const store = RunStore.open(freshFolder(), { create: true });
     store.addTrials([0, 1, 2].map((trial) => ({ trial, family: "tree", params: {} })));
