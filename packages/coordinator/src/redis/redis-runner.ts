@@ -6,6 +6,7 @@ import {
   encodeRunSetup,
   FOLD_JOB_NAME,
   type FoldOutcome,
+  isVersionRefusal,
   JOB_ATTEMPTS,
   type JobOutcome,
   type OutcomeOf,
@@ -23,7 +24,7 @@ import {
 } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
 import { Redis } from "ioredis";
-import type { JobRunner } from "../job-runner.js";
+import { type JobRunner, JobsRefusedError } from "../job-runner.js";
 import { uploadPack } from "./pack-upload.js";
 
 export interface RedisRunnerOptions {
@@ -44,6 +45,7 @@ export interface RedisRunnerOptions {
 interface Waiting {
   readonly job: Job;
   readonly resolve: (outcome: JobOutcome) => void;
+  readonly reject: (error: Error) => void;
 }
 
 /** Jobs kept queued ahead per worker thread, so a thread finds its next job waiting. */
@@ -122,8 +124,8 @@ class RedisRunner implements JobRunner {
     if (this.closed) return Promise.reject(new Error("the Redis runner is closed"));
     this.bind(job);
     const id = isRefitJob(job) ? refitJobId(job.run, job.trial) : foldJobId(job.run, job.trial, (job as FoldJob).fold);
-    return new Promise((resolve) => {
-      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>) });
+    return new Promise((resolve, reject) => {
+      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>), reject });
       void this.enqueue(id, job);
     });
   }
@@ -225,7 +227,9 @@ class RedisRunner implements JobRunner {
     const waiting = this.waiting.get(id);
     if (!waiting) return;
     this.waiting.delete(id);
-    waiting.resolve("returnvalue" in result ? this.decode(waiting.job, result.returnvalue) : this.failed(waiting.job, result.failedReason));
+    // Removed below like any settled job, so the resume that follows queues it again.
+    if ("failedReason" in result && isVersionRefusal(result.failedReason)) waiting.reject(new JobsRefusedError(result.failedReason));
+    else waiting.resolve("returnvalue" in result ? this.decode(waiting.job, result.returnvalue) : this.failed(waiting.job, result.failedReason));
     // The scheduler commits an outcome in the promise reactions that run before any
     // timer callback, so by then the result is in the run store and the job can go.
     setImmediate(() => {
