@@ -51,6 +51,8 @@ interface Waiting {
 /** Jobs kept queued ahead per worker thread, so a thread finds its next job waiting. */
 const AHEAD = 2;
 const MIN_IN_FLIGHT = 4;
+/** After the first job is queued: once the first round of jobs is queued, not a sweep interval later. */
+const EARLY_SWEEP_MS = 300;
 /** Events are a fast path only (the sweep is the safety net): a short stream bounds memory, as results ride in it. */
 const EVENTS_KEPT = 500;
 
@@ -85,6 +87,7 @@ class RedisRunner implements JobRunner {
   private readonly waiting = new Map<string, Waiting>();
   private readonly removals = new Set<Promise<void>>();
   private readonly sweeper: NodeJS.Timeout;
+  private earlySweep: NodeJS.Timeout | undefined;
   private bound: { readonly run: string; readonly dataset: string } | undefined;
   private uploaded: Promise<void> | undefined;
   private slots = 0;
@@ -134,6 +137,7 @@ class RedisRunner implements JobRunner {
     if (this.closed) return;
     this.closed = true;
     clearInterval(this.sweeper);
+    clearTimeout(this.earlySweep);
     // Removals are queued one tick after their results were committed.
     await new Promise((r) => setImmediate(r));
     await Promise.all(this.removals);
@@ -206,6 +210,10 @@ class RedisRunner implements JobRunner {
         removeOnComplete: { age: Math.ceil(this.keepMs / 1000) },
         removeOnFail: { age: Math.ceil(this.keepMs / 1000) },
       });
+      // The event stream is read only a while after this runner starts: the first jobs queued
+      // again by a resumed run may have finished while no coordinator ran and say so
+      // ("duplicated") before anyone listens. One early sweep collects them.
+      this.earlySweep ??= setTimeout(() => void this.sweep(), EARLY_SWEEP_MS);
     });
   }
 
