@@ -176,11 +176,14 @@ describe.skipIf(redis === null)("workers killed and started during a Redis run",
       { connection, prefix: ns },
     );
     const small = writePlan(dir, PLAN.replace(`budget: { trials: ${TRIALS} }`, "budget: { trials: 3 }"), "refused.plan.yaml");
+    let stoppedMs = 0;
     const runDir = join(dir, "refused");
     try {
       await older.waitUntilReady();
+      const start = Date.now();
       const run = coordinator(small, runDir, ns);
       expect(await run.exited).toBe(2);
+      stoppedMs = Date.now() - start;
       expect(run.stdout()).toBe("");
       expect(run.output()).toMatch(
         /nightshift: nightshift run --redis: a worker refused this run's jobs: versions differ: job schema 2 is newer than this worker's 1 \(the coordinator that queued it runs a newer nightshift\): update nightshift on this worker's box \(worker older-box-1\)\. Nothing was stored for the refused jobs; once every worker runs this coordinator's version, run the same command again to resume\n/,
@@ -204,5 +207,6 @@ describe.skipIf(redis === null)("workers killed and started during a Redis run",
     expect(await local.exited).toBe(0);
     expect(withoutTimings(JSON.parse(resumed.stdout()))).toEqual(withoutTimings(JSON.parse(local.stdout())));
     expect(storeAudit(runDir)).toEqual({ integrity: "ok", folds: 3 * FOLDS, distinct: 3 * FOLDS });
+    console.log(`redis-workers: a run whose jobs an older worker refuses stops after ${(stoppedMs / 1000).toFixed(1)} s (from the coordinator's start)`);
   });
 });
