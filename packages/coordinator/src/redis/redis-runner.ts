@@ -51,7 +51,7 @@ interface Waiting {
 /** Jobs kept queued ahead per worker thread, so a thread finds its next job waiting. */
 const AHEAD = 2;
 const MIN_IN_FLIGHT = 4;
-/** After the first job is queued: once the first round of jobs is queued, not a sweep interval later. */
+/** The one early sweep runs this long after the first job is queued (the first round of jobs is queued by then). */
 const EARLY_SWEEP_MS = 300;
 /** Events are a fast path only (the sweep is the safety net): a short stream bounds memory, as results ride in it. */
 const EVENTS_KEPT = 500;
