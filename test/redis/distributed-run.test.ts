@@ -114,6 +114,9 @@ describe.skipIf(redis === null)("distributed mode on a real Redis", () => {
       "extra-field": { data: { ...valid, code: "process.exit(1)" }, reason: /code/ },
       "out-of-range": { data: { ...valid, params: { depth: -3 } }, reason: /tree\.depth/ },
       "other-node": { data: { ...valid, node: NODE_MAJOR + 1 }, reason: /Node\.js/ },
+      // What a worker sees from a coordinator of a newer or older nightshift: both versions, and which box to update.
+      "newer-schema": { data: { ...valid, schema: 2 }, reason: /^refused: versions differ: job schema 2 is newer than this worker's 1 .*: update nightshift on this worker's box \(worker [^)]+\)$/ },
+      "older-schema": { data: { ...valid, schema: 0 }, reason: /^refused: versions differ: job schema 0 is older than this worker's 1 .*: update nightshift where the coordinator runs/ },
     };
     const queue = new Queue(JOB_QUEUE, { connection: queueConnection(redisEndpoint(url)), prefix: ns });
     try {

@@ -37,7 +37,7 @@ import {
 import type { ModelJson } from "@nightshift/learners";
 import { RunStore } from "@nightshift/store";
 import { type RefitOutcome, targetOf, type ThreadSetup } from "@nightshift/worker";
-import type { JobRunner } from "./job-runner.js";
+import { type JobRunner, JobsRefusedError } from "./job-runner.js";
 import { createLocalPool } from "./local-pool.js";
 
 export const ENSEMBLE_FILE = "ensemble.json";
@@ -300,6 +300,7 @@ async function refitAll(runner: JobRunner, jobs: readonly RefitJob[]): Promise<M
       try {
         outcomes.set(job.trial, await runner.run(job));
       } catch (error) {
+        if (error instanceof JobsRefusedError) throw error;
         outcomes.set(job.trial, { kind: "refit", trial: job.trial, model: null, fitSeconds: 0, error: error instanceof Error ? error.message : String(error) });
       }
     }

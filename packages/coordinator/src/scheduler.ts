@@ -2,7 +2,7 @@ import { type FoldJob, JOB_SCHEMA_VERSION, NODE_MAJOR } from "@nightshift/core";
 import type { RunStore, TrialStatus } from "@nightshift/store";
 import type { FoldOutcome } from "@nightshift/worker";
 import { promote, rungFolds } from "./halving.js";
-import { type JobRunner, JobTimeoutError } from "./job-runner.js";
+import { type JobRunner, JobsRefusedError, JobTimeoutError } from "./job-runner.js";
 import type { Trial } from "./trials.js";
 
 export interface ScheduleSpec {
@@ -59,8 +59,16 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
   for (const t of spec.trials) scores.set(t.trial, new Map());
   for (const r of store.foldScores()) scores.get(r.trial)?.set(r.fold, r.error === null ? r.score : null);
   const statusOf = new Map(store.trials().map((t) => [t.trial, t.status]));
+  /** The error of each failed fold, by trial: a trial with any is failed. */
+  const errors = new Map<number, Map<number, string>>();
   const failed = new Set<number>();
-  for (const [trial, folds] of scores) for (const s of folds.values()) if (s === null) failed.add(trial);
+  const noteError = (trial: number, fold: number, error: string): void => {
+    let byFold = errors.get(trial);
+    if (!byFold) errors.set(trial, (byFold = new Map()));
+    byFold.set(fold, error);
+    failed.add(trial);
+  };
+  for (const r of store.foldScores()) if (r.error !== null && trialsById.has(r.trial)) noteError(r.trial, r.fold, r.error);
 
   const meanOver = (trial: number, folds: number): number | null => {
     const byFold = scores.get(trial);
@@ -112,12 +120,22 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
   for (const batch of batches) advance(batch);
 
   // --- trial completion ----------------------------------------------------------------
+  // A failed trial still runs every fold it is entitled to: which folds a trial ran (and so
+  // its stored results and its board row) must not depend on how many jobs were in flight
+  // when its first failure came in.
   const isFinished = (trial: number): boolean => {
-    if (failed.has(trial)) return true;
     const st = statusOf.get(trial);
     if (st === "pruned") return true;
     const byFold = scores.get(trial);
+    if (failed.has(trial)) return (byFold?.size ?? 0) >= (entitled.get(trial) ?? 0);
     return (entitled.get(trial) ?? 0) === finalFolds && (byFold?.size ?? 0) >= finalFolds;
+  };
+  /** A failed trial's status and message come from its lowest failed fold, whatever order the folds ended in. */
+  const failure = (trial: number): { status: TrialStatus; message: string } => {
+    const byFold = errors.get(trial) as Map<number, string>;
+    const fold = Math.min(...byFold.keys());
+    const error = byFold.get(fold) as string;
+    return { status: error.startsWith("timed out") ? "timed_out" : "failed", message: `fold ${fold}: ${error}` };
   };
 
   let best: { trial: number; score: number } | null = null;
@@ -135,25 +153,22 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
   const initial: JobKey[] = [];
   for (const t of spec.trials) {
     const folds = entitled.get(t.trial) ?? 0;
-    if (failed.has(t.trial) || statusOf.get(t.trial) === "pruned") continue;
+    if (statusOf.get(t.trial) === "pruned") continue;
     for (let f = 0; f < folds; f++) if (!scores.get(t.trial)?.has(f)) initial.push({ trial: t.trial, fold: f });
   }
   let cursor = 0;
   const nextJob = (): JobKey | undefined => {
-    while (pendingPromotions.length > 0) {
-      const job = pendingPromotions.shift() as JobKey;
-      if (!failed.has(job.trial)) return job;
-    }
+    if (pendingPromotions.length > 0) return pendingPromotions.shift();
     while (cursor < initial.length) {
       const job = initial[cursor++];
-      if (!failed.has(job.trial) && statusOf.get(job.trial) !== "pruned") return job;
+      if (statusOf.get(job.trial) !== "pruned") return job;
     }
     return undefined;
   };
 
   const plannedFolds = (): number => {
     let n = 0;
-    for (const t of spec.trials) n += failed.has(t.trial) ? (scores.get(t.trial)?.size ?? 0) : statusOf.get(t.trial) === "pruned" ? (scores.get(t.trial)?.size ?? 0) : spec.halving && (entitled.get(t.trial) ?? 0) < finalFolds ? (entitled.get(t.trial) ?? 0) : finalFolds;
+    for (const t of spec.trials) n += failed.has(t.trial) ? Math.max(entitled.get(t.trial) ?? 0, scores.get(t.trial)?.size ?? 0) : statusOf.get(t.trial) === "pruned" ? (scores.get(t.trial)?.size ?? 0) : spec.halving && (entitled.get(t.trial) ?? 0) < finalFolds ? (entitled.get(t.trial) ?? 0) : finalFolds;
     return n;
   };
   const doneFolds = (): number => {
@@ -185,12 +200,11 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
     const errorText = outcome.error;
     let status: TrialStatus | undefined;
     let message: string | null = null;
+    const firstFailure = errorText !== null && !failed.has(job.trial);
     scores.get(job.trial)?.set(job.fold, errorText === null ? outcome.score : null);
-    if (errorText !== null) {
-      failed.add(job.trial);
-      status = outcome.error?.startsWith("timed out") ? "timed_out" : "failed";
-      message = `fold ${job.fold}: ${errorText}`;
-    } else if (isFinished(job.trial)) status = "done";
+    if (errorText !== null) noteError(job.trial, job.fold, errorText);
+    if (failed.has(job.trial)) ({ status, message } = failure(job.trial));
+    else if (isFinished(job.trial)) status = "done";
     else status = "running";
     if (status !== "running" || statusOf.get(job.trial) !== "running") statusOf.set(job.trial, status);
     store.commitFoldResult(
@@ -202,7 +216,7 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
       const mean = meanOver(job.trial, finalFolds);
       store.addEvent("trial_done", { trial: job.trial, family: trialsById.get(job.trial)?.family, score: mean });
       if (consider(job.trial) && best) store.addEvent("new_best", { trial: best.trial, score: best.score });
-    } else if (status === "failed" || status === "timed_out") store.addEvent("trial_failed", { trial: job.trial, status, message });
+    } else if (firstFailure) store.addEvent("trial_failed", { trial: job.trial, status, message });
   };
 
   const toJob = (key: JobKey): FoldJob => {
@@ -224,6 +238,7 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
 
   // --- the dispatch loop ---------------------------------------------------------------
   let stoppedBy: ScheduleSummary["stoppedBy"] = "finished";
+  let refused: JobsRefusedError | undefined;
   const inFlight = new Set<Promise<void>>();
   report();
   const launch = (key: JobKey): void => {
@@ -233,6 +248,11 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
     }
     const promise = runner
       .run(toJob(key))
+      .catch((error: unknown): FoldOutcome | null => {
+        if (!(error instanceof JobsRefusedError)) throw error;
+        refused ??= error;
+        return null;
+      })
       .catch((error: unknown): FoldOutcome => ({
         trial: key.trial,
         fold: key.fold,
@@ -243,6 +263,7 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
         error: error instanceof JobTimeoutError ? `timed out: ${error.message}` : error instanceof Error ? error.message : String(error),
       }))
       .then((outcome) => {
+        if (outcome === null) return;
         foldsRun++;
         commit(key, outcome);
         for (const batch of batches) if (batch.trials.includes(key.trial)) advance(batch);
@@ -253,7 +274,7 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
   };
 
   for (;;) {
-    while (inFlight.size < runner.capacity) {
+    while (inFlight.size < runner.capacity && refused === undefined) {
       if (hooks.shouldStop?.()) {
         stoppedBy = "interrupted";
         break;
@@ -271,6 +292,8 @@ export async function runSchedule(store: RunStore, runner: JobRunner, spec: Sche
     if (stoppedBy !== "finished" && inFlight.size === 0) break;
   }
   await Promise.all(inFlight);
+  // The jobs in flight are in (those refused are not stored): the run stops with the reason.
+  if (refused) throw refused;
   const completed = spec.trials.every((t) => isFinished(t.trial));
   report();
   return { completed, stoppedBy: completed ? "finished" : stoppedBy, foldsRun };

@@ -6,6 +6,7 @@ import {
   encodeRunSetup,
   FOLD_JOB_NAME,
   type FoldOutcome,
+  isVersionRefusal,
   JOB_ATTEMPTS,
   type JobOutcome,
   type OutcomeOf,
@@ -23,7 +24,7 @@ import {
 } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
 import { Redis } from "ioredis";
-import type { JobRunner } from "../job-runner.js";
+import { type JobRunner, JobsRefusedError } from "../job-runner.js";
 import { uploadPack } from "./pack-upload.js";
 
 export interface RedisRunnerOptions {
@@ -44,11 +45,14 @@ export interface RedisRunnerOptions {
 interface Waiting {
   readonly job: Job;
   readonly resolve: (outcome: JobOutcome) => void;
+  readonly reject: (error: Error) => void;
 }
 
 /** Jobs kept queued ahead per worker thread, so a thread finds its next job waiting. */
 const AHEAD = 2;
 const MIN_IN_FLIGHT = 4;
+/** The one early sweep runs this long after the first job is queued (the first round of jobs is queued by then). */
+const EARLY_SWEEP_MS = 300;
 /** Events are a fast path only (the sweep is the safety net): a short stream bounds memory, as results ride in it. */
 const EVENTS_KEPT = 500;
 
@@ -83,6 +87,7 @@ class RedisRunner implements JobRunner {
   private readonly waiting = new Map<string, Waiting>();
   private readonly removals = new Set<Promise<void>>();
   private readonly sweeper: NodeJS.Timeout;
+  private earlySweep: NodeJS.Timeout | undefined;
   private bound: { readonly run: string; readonly dataset: string } | undefined;
   private uploaded: Promise<void> | undefined;
   private slots = 0;
@@ -122,8 +127,8 @@ class RedisRunner implements JobRunner {
     if (this.closed) return Promise.reject(new Error("the Redis runner is closed"));
     this.bind(job);
     const id = isRefitJob(job) ? refitJobId(job.run, job.trial) : foldJobId(job.run, job.trial, (job as FoldJob).fold);
-    return new Promise((resolve) => {
-      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>) });
+    return new Promise((resolve, reject) => {
+      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>), reject });
       void this.enqueue(id, job);
     });
   }
@@ -132,6 +137,7 @@ class RedisRunner implements JobRunner {
     if (this.closed) return;
     this.closed = true;
     clearInterval(this.sweeper);
+    clearTimeout(this.earlySweep);
     // Removals are queued one tick after their results were committed.
     await new Promise((r) => setImmediate(r));
     await Promise.all(this.removals);
@@ -204,6 +210,10 @@ class RedisRunner implements JobRunner {
         removeOnComplete: { age: Math.ceil(this.keepMs / 1000) },
         removeOnFail: { age: Math.ceil(this.keepMs / 1000) },
       });
+      // The event stream is read only a while after this runner starts: the first jobs queued
+      // again by a resumed run may have finished while no coordinator ran and say so
+      // ("duplicated") before anyone listens. One early sweep collects them.
+      this.earlySweep ??= setTimeout(() => void this.sweep(), EARLY_SWEEP_MS);
     });
   }
 
@@ -225,7 +235,9 @@ class RedisRunner implements JobRunner {
     const waiting = this.waiting.get(id);
     if (!waiting) return;
     this.waiting.delete(id);
-    waiting.resolve("returnvalue" in result ? this.decode(waiting.job, result.returnvalue) : this.failed(waiting.job, result.failedReason));
+    // Removed below like any settled job, so the resume that follows queues it again.
+    if ("failedReason" in result && isVersionRefusal(result.failedReason)) waiting.reject(new JobsRefusedError(result.failedReason));
+    else waiting.resolve("returnvalue" in result ? this.decode(waiting.job, result.returnvalue) : this.failed(waiting.job, result.failedReason));
     // The scheduler commits an outcome in the promise reactions that run before any
     // timer callback, so by then the result is in the run store and the job can go.
     setImmediate(() => {

@@ -5,7 +5,7 @@ import { Redis } from "ioredis";
 import { Piscina } from "piscina";
 import { isRefitOutcome, type JobOutcome } from "../run-job.js";
 import { timeLimitMessage } from "../time-limit.js";
-import { acceptJob, RefusedJob } from "./accept-job.js";
+import { acceptJob, isVersionRefusal, RefusedJob } from "./accept-job.js";
 import type { FoldTask } from "./fold-thread.js";
 import { defaultCacheDir, PackCache } from "./pack-cache.js";
 import { checkNamespace, DEFAULT_NAMESPACE, decodeRunSetup, JOB_QUEUE, type RunSetup, runKey, type WorkerEntry, workerKey } from "./queue-layout.js";
@@ -131,7 +131,8 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
     } catch (error) {
       if (!(error instanceof RefusedJob)) throw error;
       log(`nightshift worker: job ${queued.id}: ${error.message}`);
-      throw new UnrecoverableError(error.message);
+      // The coordinator's user learns which box to update.
+      throw new UnrecoverableError(isVersionRefusal(error.message) ? `${error.message} (worker ${id})` : error.message);
     }
     const setup = await setupOf(job.run);
     if (setup.dataset !== job.dataset) throw new UnrecoverableError(`refused: the job names dataset ${job.dataset.slice(0, 12)}, its run uses ${setup.dataset.slice(0, 12)}`);
