@@ -2,6 +2,7 @@ import { join } from "node:path";
 import { JOB_QUEUE, queueConnection, redisEndpoint } from "@nightshift/worker";
 import { Queue } from "bullmq";
 import { afterAll, describe, expect, it } from "vitest";
+import { soakSeeds } from "./soak.js";
 import { allPredictions, nightshift, SMALL_FAMILIES, storedFolds, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 import { dropNamespace, findRedis, type Spawned, spawnCli, startWorkers, stopAll, testNamespace } from "../redis/redis-fixture.js";
 import { killAt, killMoments, sleep, storeAudit } from "./kill-moments.js";
@@ -23,7 +24,12 @@ folds: { k: ${FOLDS} }
 budget: { trials: ${TRIALS} }
 ${SMALL_FAMILIES}`;
 
-describe.skipIf(redis === null)("crash anywhere (Redis mode)", () => {
+afterAll(async () => {
+  await redis?.stop();
+});
+
+// One seed; `npm run soak` runs SOAK_FACTOR seeds (each its own 20 kill moments).
+describe.skipIf(redis === null).each(soakSeeds(2026))("crash anywhere (Redis mode), seed %i", (seed) => {
   const url = redis?.url ?? "";
   const ns = testNamespace();
   const processes: Spawned[] = [];
@@ -31,7 +37,6 @@ describe.skipIf(redis === null)("crash anywhere (Redis mode)", () => {
   afterAll(async () => {
     await stopAll(processes);
     await dropNamespace(url, ns);
-    await redis?.stop();
   });
 
   it(`ends, after ${KILLS} SIGKILLs of the coordinator at seeded-random moments while its workers run on, with the board and predictions of a local run`, async () => {
@@ -48,7 +53,7 @@ describe.skipIf(redis === null)("crash anywhere (Redis mode)", () => {
     // Time from a kill to the next coordinator's first newly committed fold (for the docs).
     const recoveries: number[] = [];
     let killedAt: { time: number; folds: number } | null = null;
-    for (const moment of killMoments("redis-crash", 2026, TOTAL, KILLS)) {
+    for (const moment of killMoments("redis-crash", seed, TOTAL, KILLS)) {
       const coordinator = spawnCli([...args, "--quiet"], dir);
       processes.push(coordinator);
       if (killedAt) {

@@ -5,6 +5,7 @@ import { RunStore } from "@nightshift/store";
 import { acceptJob, JOB_QUEUE, queueConnection, RefusedJob, redisEndpoint } from "@nightshift/worker";
 import { type Job, UnrecoverableError, Worker } from "bullmq";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { soakSeeds } from "./soak.js";
 import { allPredictions, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 import { dropNamespace, findRedis, type Spawned, spawnCli, startWorkers, stopAll, testNamespace } from "../redis/redis-fixture.js";
 import { sleep, storeAudit } from "./kill-moments.js";
@@ -90,12 +91,13 @@ describe.skipIf(redis === null)("workers killed and started during a Redis run",
     await redis?.stop();
   });
 
-  it(`ends with the local run's board and predictions after ${KILLS} SIGKILLs of random workers at seeded moments, new workers started each time`, async () => {
+  // One seed; `npm run soak` runs SOAK_FACTOR seeds.
+  it.each(soakSeeds(2026))(`ends with the local run's board and predictions after ${KILLS} SIGKILLs of random workers at seeded moments, new workers started each time (seed %i)`, async (seed) => {
     // The undisturbed run of the same plan on two workers, for the time it takes.
     const calm = namespace();
     const calmWorkers = (await startWorkers(url, calm, 2, dir)).map(track);
     let started = Date.now();
-    const undisturbed = coordinator(planPath, join(dir, "undisturbed"), calm);
+    const undisturbed = coordinator(planPath, join(dir, `undisturbed-${seed}`), calm);
     expect(await undisturbed.exited, undisturbed.output()).toBe(0);
     const undisturbedMs = Date.now() - started;
     await stopAll(calmWorkers);
@@ -103,10 +105,10 @@ describe.skipIf(redis === null)("workers killed and started during a Redis run",
 
     const ns = namespace();
     const live = (await startWorkers(url, ns, 2, dir)).map(track);
-    const rng = createRng("redis-workers", 2026);
+    const rng = createRng("redis-workers", seed);
     // Kill moments at seeded fractions of the undisturbed run's time: the disturbed run lasts longer.
     const schedule = Array.from({ length: KILLS }, () => ({ at: (0.05 + 0.9 * rng.next()) * undisturbedMs, victim: rng.int(1000) })).sort((a, b) => a.at - b.at);
-    const runDir = join(dir, "disturbed");
+    const runDir = join(dir, `disturbed-${seed}`);
     started = Date.now();
     const run = coordinator(planPath, runDir, ns);
     let running = true;
