@@ -6,6 +6,7 @@ import {
   encodeRunSetup,
   FOLD_JOB_NAME,
   type FoldOutcome,
+  isConnectionError,
   JOB_ATTEMPTS,
   type JobOutcome,
   type OutcomeOf,
@@ -18,7 +19,9 @@ import {
   redisEndpoint,
   runKey,
   type ThreadSetup,
+  type RedisWatch,
   WorkerEntrySchema,
+  watchRedis,
   workerKeyPattern,
 } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
@@ -37,7 +40,7 @@ export interface RedisRunnerOptions {
    * run's pack and setup once the run stops renewing them. Default 7 days.
    */
   readonly keepSeconds?: number;
-  /** Things the user should know: Redis lost its data, no worker is listening, Redis refused a write. */
+  /** Things the user should know: Redis unreachable (and since when) or back, Redis lost its data, no worker is listening, Redis refused a write. */
   readonly onNotice?: (message: string) => void;
 }
 
@@ -51,6 +54,8 @@ const AHEAD = 2;
 const MIN_IN_FLIGHT = 4;
 /** Events are a fast path only (the sweep is the safety net): a short stream bounds memory, as results ride in it. */
 const EVENTS_KEPT = 500;
+/** No worker entry for this long (Redis answering) before the workers are called gone: three heartbeats. */
+const WORKERS_GONE_MS = 15_000;
 
 /**
  * Fold jobs on Redis through BullMQ: any number of `nightshift worker` processes, on any
@@ -83,10 +88,12 @@ class RedisRunner implements JobRunner {
   private readonly waiting = new Map<string, Waiting>();
   private readonly removals = new Set<Promise<void>>();
   private readonly sweeper: NodeJS.Timeout;
+  private readonly watch: RedisWatch;
   private bound: { readonly run: string; readonly dataset: string } | undefined;
   private uploaded: Promise<void> | undefined;
   private slots = 0;
   private workersSeen: boolean | undefined;
+  private workersGoneSince: number | undefined;
   private sweeping = false;
   private closed = false;
 
@@ -102,6 +109,9 @@ class RedisRunner implements JobRunner {
     this.redis = new Redis(endpoint.options);
     this.queue = new Queue(JOB_QUEUE, { connection, prefix: this.namespace, streams: { events: { maxLen: EVENTS_KEPT } } });
     this.events = new QueueEvents(JOB_QUEUE, { connection, prefix: this.namespace });
+    // An unreachable Redis is told by the watch, with since when and the next try; it is
+    // not an error: every command waits for the connection to come back.
+    this.watch = watchRedis(endpoint, this.notice);
     const reportError = once(this.notice);
     this.redis.on("error", reportError);
     this.queue.on("error", reportError);
@@ -132,6 +142,7 @@ class RedisRunner implements JobRunner {
     if (this.closed) return;
     this.closed = true;
     clearInterval(this.sweeper);
+    this.watch.stop();
     // Removals are queued one tick after their results were committed.
     await new Promise((r) => setImmediate(r));
     await Promise.all(this.removals);
@@ -334,6 +345,14 @@ class RedisRunner implements JobRunner {
     }
     this.slots = slots;
     const seen = slots > 0;
+    if (!seen && this.workersSeen) {
+      // Workers' entries lapse while Redis is unreachable, and come back within one
+      // heartbeat once it answers: only a longer silence means the workers are gone.
+      if (!this.watch.reachable) this.workersGoneSince = undefined;
+      else this.workersGoneSince ??= Date.now();
+      if (this.workersGoneSince === undefined || Date.now() - this.workersGoneSince < WORKERS_GONE_MS) return;
+    }
+    this.workersGoneSince = undefined;
     if (seen !== this.workersSeen && (this.workersSeen !== undefined || !seen)) {
       this.notice(seen ? `${keys.length} worker process(es) with ${slots} threads are serving namespace '${this.namespace}'` : `no worker is serving namespace '${this.namespace}' on this Redis; jobs wait until one starts (nightshift worker --redis URL)`);
     }
@@ -341,10 +360,11 @@ class RedisRunner implements JobRunner {
   }
 }
 
-/** Reports each distinct connection error once a minute, not at every reconnection attempt. */
+/** Reports each distinct error once a minute, not at every reconnection attempt; a lost connection is the watch's to tell. */
 function once(notice: (message: string) => void): (error: Error) => void {
   const last = new Map<string, number>();
   return (error) => {
+    if (isConnectionError(error)) return;
     const now = Date.now();
     if ((last.get(error.message) ?? 0) > now - 60_000) return;
     last.set(error.message, now);

@@ -1,0 +1,139 @@
+import { mkdtempSync, writeFileSync } from "node:fs";
+import { join } from "node:path";
+import { RunStore } from "@nightshift/store";
+import { JOB_QUEUE, queueConnection, redisEndpoint } from "@nightshift/worker";
+import { Queue } from "bullmq";
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
+import { allPredictions, hasRedisServer, type RedisServer, type Spawned, spawnCli, startRedisServer, startWorkers, stopAll, storedFolds, testNamespace, until } from "../redis/redis-fixture.js";
+
+/**
+ * Redis unreachable for 30 s in the middle of a distributed run, for real: a private
+ * redis-server is either frozen (SIGSTOP: connections stay open, nothing answers) or shut
+ * down saving its data and started again from it 30 s later (connections refused
+ * meanwhile). The coordinator and two workers must wait it out without exiting, say so
+ * on stderr, and end with the local run's board and stored predictions: nothing lost,
+ * nothing stored twice.
+ */
+
+const OUTAGE_MS = 30_000;
+const TRIALS = 6;
+const FOLDS = 3;
+const JOBS = TRIALS * FOLDS;
+
+// Fits of a few tenths of a second, so jobs are in flight when Redis goes away; the
+// workers' 2 s locks (startWorkers) lapse during the outage, the harshest case.
+const PLAN = `name: redis-outage
+seed: 5
+data: { train: turbines.csv, target: failed_within_30d, ignore: [turbine_id], holdout: 0.2 }
+metric: average_precision
+folds: { k: ${FOLDS} }
+budget: { trials: ${TRIALS} }
+families:
+  forest: { trees: { int: [80, 120] }, depth: { choice: [8, 12] } }
+  boosted: { rounds: { int: [80, 120] }, learning_rate: 0.1, leaves: 16, min_leaf: 5 }
+`;
+
+const privateServers = hasRedisServer() || process.env.CI === "true";
+const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
+
+describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses nothing", () => {
+  const dir = tempDir("redis-outage");
+  const processes: Spawned[] = [];
+  const servers: RedisServer[] = [];
+  let planPath = "";
+  let localBoard: { rows: Array<Record<string, unknown>> };
+
+  const track = (p: Spawned): Spawned => {
+    processes.push(p);
+    return p;
+  };
+
+  beforeAll(async () => {
+    writeSmallTurbines(dir, 60, 20);
+    planPath = writePlan(dir, PLAN);
+    const local = track(spawnCli(["run", planPath, "--run-dir", join(dir, "local"), "--json"], dir));
+    expect(await local.exited, local.output()).toBe(0);
+    localBoard = JSON.parse(local.stdout());
+  });
+
+  afterAll(async () => {
+    await stopAll(processes);
+    for (const server of servers) {
+      try {
+        process.kill(server.pid, "SIGCONT");
+      } catch {
+        // Already gone.
+      }
+      await server.stop();
+    }
+  });
+
+  /** Runs the plan on a private Redis, breaks it after a few committed folds, mends it 30 s later; returns the seconds from mending to the next committed fold. */
+  async function runThrough(kind: "hang" | "down"): Promise<number> {
+    const server = await startRedisServer({ dataDir: mkdtempSync(join(dir, `${kind}-data-`)) });
+    servers.push(server);
+    const ns = testNamespace();
+    const workers = (await startWorkers(server.url, ns, 2, dir)).map(track);
+    const runDir = join(dir, kind);
+    const run = track(spawnCli(["run", planPath, "--run-dir", runDir, "--redis", server.url, "--namespace", ns, "--json"], dir));
+    await until("a few folds are committed", () => storedFolds(runDir) >= 3);
+
+    if (kind === "hang") process.kill(server.pid, "SIGSTOP");
+    else await server.shutdownSaving();
+    const atOutage = storedFolds(runDir);
+    expect(atOutage, "the outage lands mid-run").toBeLessThan(JOBS);
+    await sleep(OUTAGE_MS);
+
+    // Nobody gave up or crashed meanwhile, and everybody said what is going on.
+    for (const p of [run, ...workers]) expect(p.child.exitCode, p.output()).toBeNull();
+    expect(run.output()).toMatch(new RegExp(`nightshift: Redis at 127\\.0\\.0\\.1:${server.port} unreachable since \\d\\d:\\d\\d:\\d\\d \\([^)]+\\), retrying \\(next try in \\d+ s\\)`));
+    for (const w of workers) expect(w.output()).toMatch(new RegExp(`nightshift worker: Redis at 127\\.0\\.0\\.1:${server.port} unreachable since`));
+    const committedDuringOutage = storedFolds(runDir);
+
+    if (kind === "hang") process.kill(server.pid, "SIGCONT");
+    else await server.start();
+    const back = Date.now();
+    await until("a fold is committed after the outage", () => storedFolds(runDir) > committedDuringOutage || run.child.exitCode !== null, 120);
+    const recoverSeconds = (Date.now() - back) / 1000;
+
+    expect(await run.exited, run.output()).toBe(0);
+    await until("the workers say Redis is back", () => workers.every((w) => /nightshift worker: Redis at \S+ reachable again after \d+ s/.test(w.output())), 20);
+    expect(run.output()).toMatch(/nightshift: Redis at \S+ reachable again after \d+ s/);
+    // --json keeps stdout for the board: every message went to stderr.
+    const board = JSON.parse(run.stdout());
+    expect(withoutTimings(board)).toEqual(withoutTimings(localBoard));
+    expect(allPredictions(runDir)).toEqual(allPredictions(join(dir, "local")));
+
+    const store = RunStore.open(runDir, { readonly: true });
+    try {
+      expect(store.foldScores().length).toBe(JOBS);
+      // Each fold committed once, none failed.
+      expect(store.events().filter((e) => e.kind === "fold_done").length).toBe(JOBS);
+      expect(store.foldScores().filter((r) => r.error !== null)).toEqual([]);
+    } finally {
+      store.close();
+    }
+    // Every job was removed from Redis once committed.
+    const queue = new Queue(JOB_QUEUE, { connection: queueConnection(redisEndpoint(server.url)), prefix: ns });
+    try {
+      expect(await queue.getJobCounts("waiting", "active", "delayed", "completed", "failed")).toEqual({ waiting: 0, active: 0, delayed: 0, completed: 0, failed: 0 });
+    } finally {
+      await queue.close();
+    }
+    for (const w of workers) expect(w.child.exitCode, w.output()).toBeNull();
+    if (process.env.OUTAGE_DEBUG) writeFileSync(`${process.env.OUTAGE_DEBUG}-${kind}.log`, [run.output(), ...workers.map((w) => w.output())].join("\n----\n"));
+    await stopAll(workers);
+    console.log(`redis outage (${kind}, ${OUTAGE_MS / 1000} s): ${atOutage} of ${JOBS} folds committed before; first fold committed ${recoverSeconds.toFixed(1)} s after Redis was back`);
+    await server.stop();
+    return recoverSeconds;
+  }
+
+  it("waits out a hung Redis (SIGSTOP for 30 s) and ends with the local run's board and predictions", async () => {
+    await runThrough("hang");
+  }, 180_000);
+
+  it("waits out a Redis that refuses connections for 30 s (shut down, restarted with its data) and ends with the local run's board and predictions", async () => {
+    await runThrough("down");
+  }, 180_000);
+});
