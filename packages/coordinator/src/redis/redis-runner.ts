@@ -42,6 +42,8 @@ export interface RedisRunnerOptions {
   readonly keepSeconds?: number;
   /** Things the user should know: Redis unreachable (and since when) or back, Redis lost its data, no worker is listening, Redis refused a write. */
   readonly onNotice?: (message: string) => void;
+  /** Since when Redis has been unreachable, or null once it answers again (for a status line; `onNotice` tells it too). */
+  readonly onRedisState?: (unreachableSince: Date | null) => void;
 }
 
 interface Waiting {
@@ -111,7 +113,7 @@ class RedisRunner implements JobRunner {
     this.events = new QueueEvents(JOB_QUEUE, { connection, prefix: this.namespace });
     // An unreachable Redis is told by the watch, with since when and the next try; it is
     // not an error: every command waits for the connection to come back.
-    this.watch = watchRedis(endpoint, this.notice);
+    this.watch = watchRedis(endpoint, this.notice, options.onRedisState);
     const reportError = once(this.notice);
     this.redis.on("error", reportError);
     this.queue.on("error", reportError);

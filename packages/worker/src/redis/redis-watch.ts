@@ -32,9 +32,10 @@ export interface RedisWatch {
  *
  * A refused connection fails at once; a hung server (connections open, nothing answers) is
  * noticed when a PING gets no answer within 3 s. The watch only tells: the connections
- * that do the work wait and reconnect on their own (`reconnectDelayMs`).
+ * that do the work wait and reconnect on their own (`reconnectDelayMs`). `onChange` hears
+ * each change (since when Redis is unreachable, or null once it answers), for a status line.
  */
-export function watchRedis(endpoint: RedisEndpoint, tell: (message: string) => void): RedisWatch {
+export function watchRedis(endpoint: RedisEndpoint, tell: (message: string) => void, onChange?: (unreachableSince: Date | null) => void): RedisWatch {
   const at = `${endpoint.options.host?.includes(":") ? `[${endpoint.options.host}]` : endpoint.options.host}:${endpoint.options.port}`;
   let client: Redis | undefined;
   let since: number | undefined;
@@ -94,12 +95,18 @@ export function watchRedis(endpoint: RedisEndpoint, tell: (message: string) => v
     if (stopped) return;
     let wait: number;
     if (problem === undefined) {
-      if (since !== undefined) tell(`Redis at ${at} reachable again after ${Math.round((Date.now() - since) / 1000)} s`);
+      if (since !== undefined) {
+        tell(`Redis at ${at} reachable again after ${Math.round((Date.now() - since) / 1000)} s`);
+        onChange?.(null);
+      }
       since = undefined;
       attempt = 0;
       wait = HEALTHY_EVERY_MS;
     } else {
-      since ??= started;
+      if (since === undefined) {
+        since = started;
+        onChange?.(new Date(since));
+      }
       wait = reconnectDelayMs(attempt++);
       const now = Date.now();
       if (now - since < TELL_EVERY_TRY_MS || now - lastTold >= TELL_EVERY_TRY_MS) {
@@ -126,7 +133,7 @@ export function watchRedis(endpoint: RedisEndpoint, tell: (message: string) => v
 }
 
 /** Local wall-clock time, hh:mm:ss. */
-function clock(ms: number): string {
+export function clock(ms: number): string {
   const d = new Date(ms);
   return [d.getHours(), d.getMinutes(), d.getSeconds()].map((n) => String(n).padStart(2, "0")).join(":");
 }
