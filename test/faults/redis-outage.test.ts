@@ -2,7 +2,7 @@ import { mkdtempSync, writeFileSync } from "node:fs";
 import { join } from "node:path";
 import { RunStore } from "@nightshift/store";
 import { JOB_QUEUE, queueConnection, redisEndpoint } from "@nightshift/worker";
-import { Queue } from "bullmq";
+import { Queue, QueueEvents } from "bullmq";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 import { allPredictions, hasRedisServer, type RedisServer, type Spawned, spawnCli, startRedisServer, startWorkers, stopAll, storedFolds, testNamespace, until } from "../redis/redis-fixture.js";
@@ -75,6 +75,12 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     servers.push(server);
     const ns = testNamespace();
     const workers = (await startWorkers(server.url, ns, 2, dir)).map(track);
+    // Jobs whose lock lapsed during the outage go back to the queue ("stalled") and run again.
+    const events = new QueueEvents(JOB_QUEUE, { connection: queueConnection(redisEndpoint(server.url)), prefix: ns });
+    const stalled = new Set<string>();
+    events.on("stalled", ({ jobId }) => stalled.add(jobId));
+    events.on("error", () => undefined);
+    await events.waitUntilReady();
     const runDir = join(dir, kind);
     const run = track(spawnCli(["run", planPath, "--run-dir", runDir, "--redis", server.url, "--namespace", ns, "--json"], dir));
     await until("a few folds are committed", () => storedFolds(runDir) >= 3);
@@ -114,6 +120,9 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     } finally {
       store.close();
     }
+    // The outage outlasted the workers' locks: the jobs in flight were handed back and redone, their results stored once.
+    expect(stalled.size).toBeGreaterThan(0);
+    await events.close();
     // Every job was removed from Redis once committed.
     const queue = new Queue(JOB_QUEUE, { connection: queueConnection(redisEndpoint(server.url)), prefix: ns });
     try {
@@ -124,7 +133,7 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     for (const w of workers) expect(w.child.exitCode, w.output()).toBeNull();
     if (process.env.OUTAGE_DEBUG) writeFileSync(`${process.env.OUTAGE_DEBUG}-${kind}.log`, [run.output(), ...workers.map((w) => w.output())].join("\n----\n"));
     await stopAll(workers);
-    console.log(`redis outage (${kind}, ${OUTAGE_MS / 1000} s): ${atOutage} of ${JOBS} folds committed before; first fold committed ${recoverSeconds.toFixed(1)} s after Redis was back`);
+    console.log(`redis outage (${kind}, ${OUTAGE_MS / 1000} s): ${atOutage} of ${JOBS} folds committed before; first fold committed ${recoverSeconds.toFixed(1)} s after Redis was back; ${stalled.size} job(s) redone after their lock lapsed`);
     await server.stop();
     return recoverSeconds;
   }
