@@ -17,7 +17,6 @@
  */
 import { spawn } from "node:child_process";
 import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
-import { createServer } from "node:net";
 import { tmpdir } from "node:os";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
@@ -26,6 +25,7 @@ import { stringify } from "csv-stringify/sync";
 import { Redis } from "ioredis";
 import { generateTurbineRows, TURBINE_COLUMNS } from "../packages/cli/src/demo/turbine-data.js";
 import { RunStore } from "../packages/store/src/index.js";
+import { freePort, startBenchWorkers } from "./lib/redis-workers.js";
 
 const here = dirname(fileURLToPath(import.meta.url));
 const CLI = join(here, "../packages/cli/bin/nightshift.js");
@@ -71,16 +71,6 @@ function committed(): number {
   }
 }
 
-function freePort(): Promise<number> {
-  return new Promise((done) => {
-    const server = createServer();
-    server.listen(0, "127.0.0.1", () => {
-      const address = server.address();
-      server.close(() => done(typeof address === "object" && address ? address.port : 0));
-    });
-  });
-}
-
 /** A private redis-server and its `nightshift worker` processes, or nothing in local mode. */
 async function startRedisSide(workers: number): Promise<{ args: string[]; usedMemory: () => Promise<number>; stop: () => void } | undefined> {
   if (!values.redis) return undefined;
@@ -90,21 +80,7 @@ async function startRedisSide(workers: number): Promise<{ args: string[]; usedMe
   const client = new Redis(url);
   client.on("error", () => undefined);
   await client.ping();
-  const spawned = Array.from({ length: workers }, (_, i) =>
-    spawn(process.execPath, [CLI, "worker", "--redis", url, "--namespace", "load", "--concurrency", "1", "--cache", join(dir, `cache-${i}`)], { stdio: ["ignore", "ignore", "pipe"] }),
-  );
-  await Promise.all(
-    spawned.map(
-      (w) =>
-        new Promise<void>((ready) => {
-          let text = "";
-          w.stderr?.on("data", (d: Buffer) => {
-            text += d.toString();
-            if (text.includes("serving namespace")) ready();
-          });
-        }),
-    ),
-  );
+  const spawned = await startBenchWorkers(url, "load", workers, dir);
   return {
     args: ["--redis", url, "--namespace", "load"],
     async usedMemory() {
