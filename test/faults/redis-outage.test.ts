@@ -3,6 +3,7 @@ import { join } from "node:path";
 import { RunStore } from "@nightshift/store";
 import { JOB_QUEUE, queueConnection, redisEndpoint } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
+import { Redis } from "ioredis";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 import { allPredictions, hasRedisServer, type RedisServer, type Spawned, spawnCli, startRedisServer, startWorkers, stopAll, storedFolds, testNamespace, until } from "../redis/redis-fixture.js";
@@ -69,8 +70,13 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     }
   });
 
-  /** Runs the plan on a private Redis, breaks it after a few committed folds, mends it 30 s later; returns the seconds from mending to the next committed fold. */
-  async function runThrough(kind: "hang" | "down"): Promise<number> {
+  /**
+   * Runs the plan on a private Redis, breaks it after a few committed folds, mends it
+   * `seconds` later; returns the seconds from mending to the next committed fold. With
+   * `earlierLapses`, the queued jobs are marked as stalled that often before (as if their
+   * locks had lapsed in earlier outages), so this outage is the one after which BullMQ gives up on them.
+   */
+  async function runThrough(kind: "hang" | "down", { seconds = OUTAGE_MS / 1000, earlierLapses = 0 } = {}): Promise<number> {
     const server = await startRedisServer({ dataDir: mkdtempSync(join(dir, `${kind}-data-`)) });
     servers.push(server);
     const ns = testNamespace();
@@ -81,15 +87,23 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     events.on("stalled", ({ jobId }) => stalled.add(jobId));
     events.on("error", () => undefined);
     await events.waitUntilReady();
-    const runDir = join(dir, kind);
+    const queue = new Queue(JOB_QUEUE, { connection: queueConnection(redisEndpoint(server.url)), prefix: ns });
+    queue.on("error", () => undefined);
+    const runDir = join(dir, `${kind}-${seconds}s-${earlierLapses}`);
     const run = track(spawnCli(["run", planPath, "--run-dir", runDir, "--redis", server.url, "--namespace", ns, "--json"], dir));
     await until("a few folds are committed", () => storedFolds(runDir) >= 3);
+    if (earlierLapses > 0) {
+      const client = new Redis(server.url);
+      // "stc" is the stalled counter BullMQ keeps in a job's hash.
+      for (const job of await queue.getJobs(["active", "waiting"])) await client.hset(queue.toKey(job.id as string), "stc", earlierLapses);
+      client.disconnect();
+    }
 
     if (kind === "hang") process.kill(server.pid, "SIGSTOP");
     else await server.shutdownSaving();
     const atOutage = storedFolds(runDir);
     expect(atOutage, "the outage lands mid-run").toBeLessThan(JOBS);
-    await sleep(OUTAGE_MS);
+    await sleep(seconds * 1000);
 
     // Nobody gave up or crashed meanwhile, and everybody said what is going on.
     for (const p of [run, ...workers]) expect(p.child.exitCode, p.output()).toBeNull();
@@ -123,17 +137,17 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     // The outage outlasted the workers' locks: the jobs in flight were handed back and redone, their results stored once.
     expect(stalled.size).toBeGreaterThan(0);
     await events.close();
+    if (earlierLapses > 0) expect(run.output()).toMatch(/its locks lapsed while Redis was unreachable .*; queued again/);
     // Every job was removed from Redis once committed.
-    const queue = new Queue(JOB_QUEUE, { connection: queueConnection(redisEndpoint(server.url)), prefix: ns });
     try {
       expect(await queue.getJobCounts("waiting", "active", "delayed", "completed", "failed")).toEqual({ waiting: 0, active: 0, delayed: 0, completed: 0, failed: 0 });
     } finally {
       await queue.close();
     }
     for (const w of workers) expect(w.child.exitCode, w.output()).toBeNull();
-    if (process.env.OUTAGE_DEBUG) writeFileSync(`${process.env.OUTAGE_DEBUG}-${kind}.log`, [run.output(), ...workers.map((w) => w.output())].join("\n----\n"));
+    if (process.env.OUTAGE_DEBUG) writeFileSync(`${process.env.OUTAGE_DEBUG}-${kind}-${earlierLapses}.log`, [run.output(), ...workers.map((w) => w.output())].join("\n----\n"));
     await stopAll(workers);
-    console.log(`redis outage (${kind}, ${OUTAGE_MS / 1000} s): ${atOutage} of ${JOBS} folds committed before; first fold committed ${recoverSeconds.toFixed(1)} s after Redis was back; ${stalled.size} job(s) redone after their lock lapsed`);
+    console.log(`redis outage (${kind}, ${seconds} s, ${earlierLapses} earlier lapses): ${atOutage} of ${JOBS} folds committed before; first fold committed ${recoverSeconds.toFixed(1)} s after Redis was back; ${stalled.size} job(s) redone after their lock lapsed`);
     await server.stop();
     return recoverSeconds;
   }
@@ -145,4 +159,9 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
   it("waits out a Redis that refuses connections for 30 s (shut down, restarted with its data) and ends with the local run's board and predictions", async () => {
     await runThrough("down");
   }, 180_000);
+
+  it("queues again, instead of failing, the jobs BullMQ gives up on after their locks lapsed in a third outage", async () => {
+    // The workers allow two lapses (a worker dying twice); the third fails a job unless the coordinator knows they were outages.
+    await runThrough("hang", { seconds: 10, earlierLapses: 2 });
+  }, 120_000);
 });

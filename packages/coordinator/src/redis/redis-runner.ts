@@ -49,6 +49,12 @@ export interface RedisRunnerOptions {
 interface Waiting {
   readonly job: Job;
   readonly resolve: (outcome: JobOutcome) => void;
+  /** When it was (last) queued. */
+  queuedAt: number;
+  /** Times it was queued again after Redis outages made BullMQ give up on it. */
+  requeues: number;
+  /** Being queued again: what Redis says of it meanwhile is about the old job. */
+  requeueing: boolean;
 }
 
 /** Jobs kept queued ahead per worker thread, so a thread finds its next job waiting. */
@@ -58,6 +64,10 @@ const MIN_IN_FLIGHT = 4;
 const EVENTS_KEPT = 500;
 /** No worker entry for this long (Redis answering) before the workers are called gone: three heartbeats. */
 const WORKERS_GONE_MS = 15_000;
+/** BullMQ's reason for a job whose lock lapsed more often than the workers allow (`maxStalledCount`). */
+const STALLED_TOO_OFTEN = /stalled more than allowable limit/;
+/** A job BullMQ gave up on after Redis outages is queued again at most this often. */
+const MAX_REQUEUES = 3;
 
 /**
  * Fold jobs on Redis through BullMQ: any number of `nightshift worker` processes, on any
@@ -135,7 +145,7 @@ class RedisRunner implements JobRunner {
     this.bind(job);
     const id = isRefitJob(job) ? refitJobId(job.run, job.trial) : foldJobId(job.run, job.trial, (job as FoldJob).fold);
     return new Promise((resolve) => {
-      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>) });
+      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>), queuedAt: Date.now(), requeues: 0, requeueing: false });
       void this.enqueue(id, job);
     });
   }
@@ -207,9 +217,10 @@ class RedisRunner implements JobRunner {
     if (refused) throw refused;
   }
 
-  private async enqueue(id: string, job: Job): Promise<void> {
-    await this.patiently(`queueing job ${id}`, async () => {
+  private async enqueue(id: string, job: Job, replace = false): Promise<void> {
+    await this.patiently(`queueing job ${id}${replace ? " again" : ""}`, async () => {
       await this.ensureUploaded();
+      if (replace) await this.queue.remove(id);
       await this.queue.add(FOLD_JOB_NAME, job, {
         jobId: id,
         attempts: JOB_ATTEMPTS,
@@ -217,6 +228,27 @@ class RedisRunner implements JobRunner {
         removeOnComplete: { age: Math.ceil(this.keepMs / 1000) },
         removeOnFail: { age: Math.ceil(this.keepMs / 1000) },
       });
+    });
+  }
+
+  /**
+   * A job whose lock lapsed in Redis outages is handed back and counted as stalled, as if
+   * its worker had died; after a few (`maxStalledCount`) BullMQ fails it. When Redis was
+   * unreachable since the job was queued, those were outages, not crashes: the failed job
+   * is replaced by a fresh one instead of becoming a failed fold. Out-of-memory kills with
+   * no outage meanwhile still fail the job.
+   */
+  private lapsedInOutages(waiting: Waiting, failedReason: string): boolean {
+    return STALLED_TOO_OFTEN.test(failedReason) && (this.watch.troubleAt ?? 0) >= waiting.queuedAt && waiting.requeues < MAX_REQUEUES;
+  }
+
+  private requeue(id: string, waiting: Waiting): void {
+    waiting.requeueing = true;
+    waiting.requeues++;
+    this.notice(`job ${id}: its locks lapsed while Redis was unreachable (BullMQ counts that as a dying worker and gave up on it); queued again`);
+    void this.enqueue(id, waiting.job, true).finally(() => {
+      waiting.queuedAt = Date.now();
+      waiting.requeueing = false;
     });
   }
 
@@ -236,7 +268,8 @@ class RedisRunner implements JobRunner {
 
   private settle(id: string, result: { returnvalue: unknown } | { failedReason: string }): void {
     const waiting = this.waiting.get(id);
-    if (!waiting) return;
+    if (!waiting || waiting.requeueing) return;
+    if ("failedReason" in result && this.lapsedInOutages(waiting, result.failedReason)) return this.requeue(id, waiting);
     this.waiting.delete(id);
     waiting.resolve("returnvalue" in result ? this.decode(waiting.job, result.returnvalue) : this.failed(waiting.job, result.failedReason));
     // The scheduler commits an outcome in the promise reactions that run before any
@@ -275,7 +308,7 @@ class RedisRunner implements JobRunner {
   }
 
   private failed(job: Job, reason: string): JobOutcome {
-    const error = /stalled more than allowable limit/.test(reason) ? "the workers running this job died each time it ran (out of memory?); it was not tried again" : reason;
+    const error = STALLED_TOO_OFTEN.test(reason) ? "the workers running this job died each time it ran (out of memory?); it was not tried again" : reason;
     if (isRefitJob(job)) return { kind: "refit", trial: job.trial, model: null, fitSeconds: 0, error };
     return { trial: job.trial, fold: (job as FoldJob).fold, score: null, outOfFold: null, fitSeconds: 0, predictSeconds: 0, error };
   }
@@ -286,10 +319,11 @@ class RedisRunner implements JobRunner {
     await Promise.all(
       ids.map(async (id, i) => {
         const waiting = this.waiting.get(id);
-        if (!waiting) return;
+        if (!waiting || waiting.requeueing) return;
         if (states[i] === "completed" || states[i] === "failed") {
           const job = await this.queue.getJob(id);
-          if (!job) return;
+          // Gone, or queued again since its state was read.
+          if (!job || job.finishedOn === undefined) return;
           this.settle(id, states[i] === "completed" ? { returnvalue: job.returnvalue } : { failedReason: job.failedReason });
         } else if (states[i] === "unknown") {
           // Gone from Redis before it was collected (a Redis restart lost it): queue it again.

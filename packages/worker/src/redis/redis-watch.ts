@@ -20,6 +20,8 @@ const TELL_EVERY_TRY_MS = 60_000;
 export interface RedisWatch {
   /** False from the first failed probe until one succeeds again. */
   readonly reachable: boolean;
+  /** When a probe last failed (ms since the epoch), if ever. */
+  readonly troubleAt: number | undefined;
   stop(): void;
 }
 
@@ -39,6 +41,7 @@ export function watchRedis(endpoint: RedisEndpoint, tell: (message: string) => v
   const at = `${endpoint.options.host?.includes(":") ? `[${endpoint.options.host}]` : endpoint.options.host}:${endpoint.options.port}`;
   let client: Redis | undefined;
   let since: number | undefined;
+  let troubleAt: number | undefined;
   let lastTold = 0;
   let attempt = 0;
   let stopped = false;
@@ -103,6 +106,7 @@ export function watchRedis(endpoint: RedisEndpoint, tell: (message: string) => v
       attempt = 0;
       wait = HEALTHY_EVERY_MS;
     } else {
+      troubleAt = Date.now();
       if (since === undefined) {
         since = started;
         onChange?.(new Date(since));
@@ -123,6 +127,9 @@ export function watchRedis(endpoint: RedisEndpoint, tell: (message: string) => v
   return {
     get reachable() {
       return since === undefined;
+    },
+    get troubleAt() {
+      return troubleAt;
     },
     stop() {
       stopped = true;
