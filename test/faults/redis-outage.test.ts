@@ -1,7 +1,7 @@
 import { mkdtempSync, writeFileSync } from "node:fs";
 import { join } from "node:path";
 import { RunStore } from "@nightshift/store";
-import { JOB_QUEUE, queueConnection, redisEndpoint } from "@nightshift/worker";
+import { JOB_QUEUE, queueConnection, redisEndpoint, watchRedis } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
 import { Redis } from "ioredis";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
@@ -14,7 +14,9 @@ import { allPredictions, hasRedisServer, type RedisServer, type Spawned, spawnCl
  * down saving its data and started again from it 30 s later (connections refused
  * meanwhile). The coordinator and two workers must wait it out without exiting, say so
  * on stderr, and end with the local run's board and stored predictions: nothing lost,
- * nothing stored twice.
+ * nothing stored twice. The workers' locks lapse meanwhile, so the jobs in flight are
+ * redone; a third test makes that the lapse after which BullMQ gives up on a job (as on a
+ * worker that keeps dying), which the coordinator must queue again, not record as failed.
  */
 
 const OUTAGE_MS = 30_000;
@@ -42,6 +44,7 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
   const dir = tempDir("redis-outage");
   const processes: Spawned[] = [];
   const servers: RedisServer[] = [];
+  const frozen = new Set<number>();
   let planPath = "";
   let localBoard: { rows: Array<Record<string, unknown>> };
 
@@ -60,14 +63,9 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
 
   afterAll(async () => {
     await stopAll(processes);
-    for (const server of servers) {
-      try {
-        process.kill(server.pid, "SIGCONT");
-      } catch {
-        // Already gone.
-      }
-      await server.stop();
-    }
+    // A test that failed mid-outage leaves its server frozen: it is woken, then stopped.
+    for (const pid of frozen) process.kill(pid, "SIGCONT");
+    for (const server of servers) await server.stop();
   });
 
   /**
@@ -99,7 +97,10 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
       client.disconnect();
     }
 
-    if (kind === "hang") process.kill(server.pid, "SIGSTOP");
+    if (kind === "hang") {
+      frozen.add(server.pid);
+      process.kill(server.pid, "SIGSTOP");
+    }
     else await server.shutdownSaving();
     const atOutage = storedFolds(runDir);
     expect(atOutage, "the outage lands mid-run").toBeLessThan(JOBS);
@@ -111,7 +112,10 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     for (const w of workers) expect(w.output()).toMatch(new RegExp(`nightshift worker: Redis at 127\\.0\\.0\\.1:${server.port} unreachable since`));
     const committedDuringOutage = storedFolds(runDir);
 
-    if (kind === "hang") process.kill(server.pid, "SIGCONT");
+    if (kind === "hang") {
+      process.kill(server.pid, "SIGCONT");
+      frozen.delete(server.pid);
+    }
     else await server.start();
     const back = Date.now();
     await until("a fold is committed after the outage", () => storedFolds(runDir) > committedDuringOutage || run.child.exitCode !== null, 120);
@@ -151,6 +155,27 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     await server.stop();
     return recoverSeconds;
   }
+
+  it("tells at once that Redis refuses connections, with since when and the next try, and when it answers again", async () => {
+    const server = await startRedisServer();
+    servers.push(server);
+    await server.stop();
+    const told: string[] = [];
+    const changes: Array<Date | null> = [];
+    const watch = watchRedis(redisEndpoint(server.url), (line) => told.push(line), (since) => changes.push(since));
+    try {
+      await until("the watch tells the outage", () => told.length > 0, 10);
+      expect(told[0]).toMatch(new RegExp(`^Redis at 127\\.0\\.0\\.1:${server.port} unreachable since \\d\\d:\\d\\d:\\d\\d \\(connection refused\\), retrying \\(next try in 1 s\\)$`));
+      expect(watch.reachable).toBe(false);
+      await server.start();
+      await until("the watch tells Redis is back", () => told.some((line) => /^Redis at \S+ reachable again after \d+ s$/.test(line)), 20);
+      expect(watch.reachable).toBe(true);
+      expect(changes.map((c) => c === null)).toEqual([false, true]);
+    } finally {
+      watch.stop();
+      await server.stop();
+    }
+  });
 
   it("waits out a hung Redis (SIGSTOP for 30 s) and ends with the local run's board and predictions", async () => {
     await runThrough("hang");
