@@ -224,9 +224,9 @@ function quietly(log: (line: string) => void, what: string): (error: Error) => v
   const last = new Map<string, number>();
   return (error) => {
     if (isConnectionError(error)) return;
-    // Redis unreachable for longer than the lock: the job went back to the queue, and this result is not taken.
+    // Redis out of reach for longer than the lock, most likely: the job went back to the queue, and this result is not taken.
     const lapsed = /^Missing lock for job (\S+?)\.? move/.exec(error.message);
-    const message = lapsed ? `job ${lapsed[1]}: its lock lapsed while Redis was unreachable; it was handed back to the queue and runs again` : error.message;
+    const message = lapsed ? `job ${lapsed[1]}: its lock lapsed (Redis out of reach for longer than --lock-seconds?); the job went back to the queue and runs again` : error.message;
     const now = Date.now();
     if ((last.get(message) ?? 0) > now - 60_000) return;
     last.set(message, now);
