@@ -4,9 +4,15 @@
  * process whose resident memory (VmRSS in /proc/<pid>/status) is sampled through the run.
  *
  *   npm run build && npx tsx bench/load.bench.ts [--trials N] [--workers N]
+ *   npm run build && npx tsx bench/load.bench.ts --redis [--trials N] [--workers N]
  *
- * Prints the wall time, the peak RSS, and the RSS at 10 % of the fold jobs against the RSS at the
- * end (the growth over 90 % of the run: bounded memory keeps it near zero). Figures go to
+ * With --redis the same load goes through a private redis-server (no persistence; needs
+ * redis-server on PATH) and N `nightshift worker` processes of one thread each (default 2),
+ * and Redis' own memory (INFO memory: used_memory) is sampled with the coordinator's RSS,
+ * every 200 ms: completed jobs are removed once committed, so it should stay flat.
+ *
+ * Prints the wall time, the peaks, and the figures at 10, 25, 50, 75 and 100 % of the fold
+ * jobs (the growth from 10 % to the end: bounded memory keeps it near zero). Figures go to
  * docs/RELIABILITY.md ("Crashes, disk, HTTP and load") and docs/BENCHMARKS.md.
  */
 import { spawn } from "node:child_process";
@@ -16,12 +22,14 @@ import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { parseArgs } from "node:util";
 import { stringify } from "csv-stringify/sync";
+import { Redis } from "ioredis";
 import { generateTurbineRows, TURBINE_COLUMNS } from "../packages/cli/src/demo/turbine-data.js";
 import { RunStore } from "../packages/store/src/index.js";
+import { freePort, startBenchWorkers } from "./lib/redis-workers.js";
 
 const here = dirname(fileURLToPath(import.meta.url));
 const CLI = join(here, "../packages/cli/bin/nightshift.js");
-const { values } = parseArgs({ options: { trials: { type: "string", default: "2000" }, workers: { type: "string", default: "1" } } });
+const { values } = parseArgs({ options: { trials: { type: "string", default: "2000" }, workers: { type: "string" }, redis: { type: "boolean", default: false } } });
 const trials = Number(values.trials);
 const FOLDS = 3;
 
@@ -63,8 +71,36 @@ function committed(): number {
   }
 }
 
+/** A private redis-server and its `nightshift worker` processes, or nothing in local mode. */
+async function startRedisSide(workers: number): Promise<{ args: string[]; usedMemory: () => Promise<number>; stop: () => void } | undefined> {
+  if (!values.redis) return undefined;
+  const port = await freePort();
+  const server = spawn("redis-server", ["--port", String(port), "--bind", "127.0.0.1", "--dir", dir, "--save", "", "--appendonly", "no"], { stdio: "ignore" });
+  const url = `redis://127.0.0.1:${port}`;
+  const client = new Redis(url);
+  client.on("error", () => undefined);
+  await client.ping();
+  const spawned = await startBenchWorkers(url, "load", workers, dir);
+  return {
+    args: ["--redis", url, "--namespace", "load"],
+    async usedMemory() {
+      const info = await client.info("memory");
+      return Number(/^used_memory:(\d+)/m.exec(info)?.[1] ?? Number.NaN) / 1024;
+    },
+    stop() {
+      for (const w of spawned) w.kill("SIGKILL");
+      client.disconnect();
+      server.kill("SIGKILL");
+    },
+  };
+}
+
+const redisSide = await startRedisSide(Number(values.workers ?? 2));
 const started = performance.now();
-const child = spawn(process.execPath, [CLI, "run", "load.plan.yaml", "--run-dir", runDir, "--workers", values.workers ?? "1", "--search-only", "--quiet"], { cwd: dir, stdio: ["ignore", "ignore", "inherit"] });
+const child = spawn(process.execPath, [CLI, "run", "load.plan.yaml", "--run-dir", runDir, ...(redisSide ? redisSide.args : ["--workers", values.workers ?? "1"]), "--search-only", "--quiet"], {
+  cwd: dir,
+  stdio: ["ignore", "ignore", "inherit"],
+});
 const exited = new Promise<number | null>((resolve) => child.on("exit", (code) => resolve(code)));
 let done = false;
 void exited.then(() => {
@@ -72,32 +108,39 @@ void exited.then(() => {
 });
 
 const total = trials * FOLDS;
-const samples: Array<{ at: number; jobs: number; rss: number }> = [];
+/** Memory figures in KiB: the coordinator's RSS and, with --redis, Redis' used_memory. */
+const samples: Array<{ at: number; jobs: number; rss: number; redis: number }> = [];
 let lastJobsCheck = 0;
 let jobs = 0;
 while (!done) {
   const rss = rssKiB(child.pid ?? -1);
+  const redis = redisSide ? await redisSide.usedMemory() : Number.NaN;
   const now = performance.now();
   // Reading the store is cheap but not free: once a second.
   if (now - lastJobsCheck > 1000) {
     jobs = committed();
     lastJobsCheck = now;
   }
-  if (rss !== undefined) samples.push({ at: (now - started) / 1000, jobs, rss });
-  await new Promise((r) => setTimeout(r, 100));
+  if (rss !== undefined) samples.push({ at: (now - started) / 1000, jobs, rss, redis });
+  await new Promise((r) => setTimeout(r, 200));
 }
 const code = await exited;
 const seconds = (performance.now() - started) / 1000;
 const finalJobs = committed();
-const peak = Math.max(...samples.map((s) => s.rss));
-const tenth = samples.find((s) => s.jobs >= total / 10);
-const last = samples.at(-1);
+const redisAfter = redisSide ? await redisSide.usedMemory() : Number.NaN;
+redisSide?.stop();
 const mb = (kib: number) => (kib / 1024).toFixed(1);
-console.log(`exit ${code}; ${finalJobs} of ${total} fold jobs stored; ${seconds.toFixed(1)} s wall; ${samples.length} RSS samples`);
-console.log(`peak RSS ${mb(peak)} MiB`);
-if (tenth && last) console.log(`RSS at 10 % of the jobs (${tenth.jobs} stored, ${tenth.at.toFixed(1)} s) ${mb(tenth.rss)} MiB; at the end ${mb(last.rss)} MiB; growth ${mb(last.rss - tenth.rss)} MiB`);
-for (const q of [0.25, 0.5, 0.75]) {
-  const s = samples.find((x) => x.jobs >= total * q);
-  if (s) console.log(`RSS at ${q * 100} % of the jobs: ${mb(s.rss)} MiB`);
+console.log(`${redisSide ? `Redis mode, ${values.workers ?? 2} worker process(es)` : "local mode"}: exit ${code}; ${finalJobs} of ${total} fold jobs stored; ${seconds.toFixed(1)} s wall; ${samples.length} samples`);
+const figures: Array<[string, (s: (typeof samples)[number]) => number]> = [["coordinator RSS", (s) => s.rss]];
+if (redisSide) figures.push(["Redis used_memory", (s) => s.redis]);
+for (const [name, of] of figures) {
+  const at = [0.1, 0.25, 0.5, 0.75].map((q) => {
+    const s = samples.find((x) => x.jobs >= total * q);
+    return s ? `${q * 100} % ${mb(of(s))}` : `${q * 100} % ?`;
+  });
+  const tenth = samples.find((x) => x.jobs >= total / 10);
+  const last = samples.at(-1);
+  console.log(`${name} (MiB): peak ${mb(Math.max(...samples.map(of)))}; at ${at.join(", ")}, 100 % ${last ? mb(of(last)) : "?"}; growth from 10 % to the end ${tenth && last ? mb(of(last) - of(tenth)) : "?"}`);
 }
+if (redisSide) console.log(`Redis used_memory after the run: ${mb(redisAfter)} MiB`);
 console.log(`run folder: ${runDir}`);

@@ -18,7 +18,6 @@
  */
 import { type ChildProcess, spawn } from "node:child_process";
 import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
-import { createServer } from "node:net";
 import { tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 import { stringify } from "csv-stringify/sync";
@@ -27,20 +26,11 @@ import { createRng } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
 import { Redis } from "ioredis";
 import { generateTurbineRows, TURBINE_COLUMNS } from "../packages/cli/src/demo/turbine-data.js";
+import { freePort, startBenchWorkers } from "./lib/redis-workers.js";
 
 const CLI = resolve(import.meta.dirname, "../packages/cli/bin/nightshift.js");
 const dir = mkdtempSync(join(tmpdir(), "nightshift-bench-redis-"));
 const CLOCK_TICKS = 100;
-
-async function freePort(): Promise<number> {
-  return new Promise((done) => {
-    const server = createServer();
-    server.listen(0, "127.0.0.1", () => {
-      const address = server.address();
-      server.close(() => done(typeof address === "object" && address ? address.port : 0));
-    });
-  });
-}
 
 const port = await freePort();
 const redisServer = spawn("redis-server", ["--port", String(port), "--bind", "127.0.0.1", "--dir", dir, "--save", "", "--appendonly", "yes", "--appendfsync", "everysec"], { stdio: "ignore" });
@@ -62,24 +52,7 @@ function processCpuSeconds(pid: number): number {
   return (Number(fields[11]) + Number(fields[12])) / CLOCK_TICKS;
 }
 
-async function startWorkers(count: number, namespace: string): Promise<ChildProcess[]> {
-  const workers = Array.from({ length: count }, (_, i) =>
-    spawn(process.execPath, [CLI, "worker", "--redis", url, "--namespace", namespace, "--concurrency", "1", "--cache", join(dir, `cache-${namespace}-${i}`)], { stdio: ["ignore", "ignore", "pipe"] }),
-  );
-  await Promise.all(
-    workers.map(
-      (w) =>
-        new Promise<void>((ready) => {
-          let text = "";
-          w.stderr?.on("data", (d: Buffer) => {
-            text += d.toString();
-            if (text.includes("serving namespace")) ready();
-          });
-        }),
-    ),
-  );
-  return workers;
-}
+const startWorkers = (count: number, namespace: string): Promise<ChildProcess[]> => startBenchWorkers(url, namespace, count, dir);
 
 async function stopWorkers(workers: ChildProcess[]): Promise<void> {
   await Promise.all(workers.map((w) => new Promise((r) => (w.once("exit", r), w.kill("SIGTERM")))));

@@ -54,17 +54,27 @@ export async function freePort(): Promise<number> {
 
 export interface RedisServer extends TestRedis {
   readonly port: number;
+  /** The redis-server process. */
+  readonly pid: number;
   /** Kills the server and starts an empty one on the same port (no persistence): Redis restarted empty. */
   restartEmpty(): Promise<void>;
+  /** With `dataDir`: saves the data and stops (SHUTDOWN SAVE); connections are refused until `start`. */
+  shutdownSaving(): Promise<void>;
+  /** Starts the server again on the same port (with `dataDir`, from the data it saved). */
+  start(): Promise<void>;
 }
 
 const TLS_DIR = resolve(__dirname, "tls");
 export const TEST_CA = resolve(TLS_DIR, "test-only.crt");
 
-/** A private redis-server (no persistence) on a free port; `tls` serves rediss:// with the test certificate. */
-export async function startRedisServer(options: { password?: string; tls?: boolean } = {}): Promise<RedisServer> {
+/**
+ * A private redis-server on a free port; `tls` serves rediss:// with the test certificate.
+ * No persistence, unless `dataDir`: then `shutdownSaving` writes the data there and `start` reads it back.
+ */
+export async function startRedisServer(options: { password?: string; tls?: boolean; dataDir?: string } = {}): Promise<RedisServer> {
   const port = await freePort();
   const args = ["--bind", "127.0.0.1", "--save", "", "--appendonly", "no", "--daemonize", "no"];
+  if (options.dataDir) args.push("--dir", options.dataDir, "--dbfilename", "outage.rdb");
   if (options.tls) args.push("--port", "0", "--tls-port", String(port), "--tls-cert-file", resolve(TLS_DIR, "test-only.crt"), "--tls-key-file", resolve(TLS_DIR, "test-only.key"), "--tls-auth-clients", "no");
   else args.push("--port", String(port));
   if (options.password) args.push("--requirepass", options.password);
@@ -100,11 +110,25 @@ export async function startRedisServer(options: { password?: string; tls?: boole
   return {
     url,
     port,
+    get pid() {
+      return child.pid as number;
+    },
     stop,
     async restartEmpty() {
       await stop();
       await start();
     },
+    async shutdownSaving() {
+      if (!options.dataDir) throw new Error("shutdownSaving needs a dataDir");
+      const exited = new Promise((r) => child.once("exit", r));
+      const client = new Redis({ ...redisEndpoint(url).options, retryStrategy: () => null, maxRetriesPerRequest: 0 });
+      client.on("error", () => undefined);
+      // The server closes the connection as it exits, so SHUTDOWN has no reply to wait for.
+      await client.shutdown("SAVE").catch(() => undefined);
+      client.disconnect();
+      await exited;
+    },
+    start,
   };
 }
 

@@ -2,7 +2,7 @@ import { buildBoard } from "@nightshift/aggregator";
 import { createRedisRunner, runSearch } from "@nightshift/coordinator";
 import { InputError } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
-import { checkNamespace, checkRedis, DEFAULT_NAMESPACE, type RedisEndpoint, redisEndpoint } from "@nightshift/worker";
+import { checkNamespace, checkRedis, clock, DEFAULT_NAMESPACE, type RedisEndpoint, redisEndpoint } from "@nightshift/worker";
 import { parseVerbArgs, positiveInteger } from "../args.js";
 import { formatBoard } from "../board-table.js";
 import type { Verb } from "../commands.js";
@@ -57,7 +57,12 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
       finalStep: !options.searchOnly,
       shouldStop: () => stopping,
       runner: redis
-        ? (setup) => createRedisRunner(redis.endpoint, setup, { namespace: redis.namespace, onNotice: (message) => process.stderr.write(`nightshift: ${message}\n`) })
+        ? (setup) =>
+            createRedisRunner(redis.endpoint, setup, {
+              namespace: redis.namespace,
+              onNotice: (message) => (bar ? bar.log(`nightshift: ${message}`) : process.stderr.write(`nightshift: ${message}\n`)),
+              onRedisState: (since) => bar?.note(since === null ? null : `Redis unreachable since ${clock(since.getTime())}`),
+            })
         : undefined,
       onStart: (info) => {
         runDir = info.runDir;

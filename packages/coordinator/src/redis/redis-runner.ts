@@ -7,6 +7,7 @@ import {
   FOLD_JOB_NAME,
   type FoldOutcome,
   isVersionRefusal,
+  isConnectionError,
   JOB_ATTEMPTS,
   type JobOutcome,
   type OutcomeOf,
@@ -19,7 +20,9 @@ import {
   redisEndpoint,
   runKey,
   type ThreadSetup,
+  type RedisWatch,
   WorkerEntrySchema,
+  watchRedis,
   workerKeyPattern,
 } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
@@ -38,14 +41,22 @@ export interface RedisRunnerOptions {
    * run's pack and setup once the run stops renewing them. Default 7 days.
    */
   readonly keepSeconds?: number;
-  /** Things the user should know: Redis lost its data, no worker is listening, Redis refused a write. */
+  /** Things the user should know: Redis unreachable (and since when) or back, Redis lost its data, no worker is listening, Redis refused a write. */
   readonly onNotice?: (message: string) => void;
+  /** Since when Redis has been unreachable, or null once it answers again (for a status line; `onNotice` tells it too). */
+  readonly onRedisState?: (unreachableSince: Date | null) => void;
 }
 
 interface Waiting {
   readonly job: Job;
   readonly resolve: (outcome: JobOutcome) => void;
   readonly reject: (error: Error) => void;
+  /** When it was (last) queued. */
+  queuedAt: number;
+  /** Times it was queued again after Redis outages made BullMQ give up on it. */
+  requeues: number;
+  /** Being queued again: what Redis says of it meanwhile is about the old job. */
+  requeueing: boolean;
 }
 
 /** Jobs kept queued ahead per worker thread, so a thread finds its next job waiting. */
@@ -55,6 +66,12 @@ const MIN_IN_FLIGHT = 4;
 const EARLY_SWEEP_MS = 300;
 /** Events are a fast path only (the sweep is the safety net): a short stream bounds memory, as results ride in it. */
 const EVENTS_KEPT = 500;
+/** No worker entry for this long (Redis answering) before the workers are called gone: three heartbeats. */
+const WORKERS_GONE_MS = 15_000;
+/** BullMQ's reason for a job whose lock lapsed more often than the workers allow (`maxStalledCount`). */
+const STALLED_TOO_OFTEN = /stalled more than allowable limit/;
+/** A job BullMQ gave up on after Redis outages is queued again at most this often. */
+const MAX_REQUEUES = 3;
 
 /**
  * Fold jobs on Redis through BullMQ: any number of `nightshift worker` processes, on any
@@ -88,10 +105,12 @@ class RedisRunner implements JobRunner {
   private readonly removals = new Set<Promise<void>>();
   private readonly sweeper: NodeJS.Timeout;
   private earlySweep: NodeJS.Timeout | undefined;
+  private readonly watch: RedisWatch;
   private bound: { readonly run: string; readonly dataset: string } | undefined;
   private uploaded: Promise<void> | undefined;
   private slots = 0;
   private workersSeen: boolean | undefined;
+  private workersGoneSince: number | undefined;
   private sweeping = false;
   private closed = false;
 
@@ -107,6 +126,9 @@ class RedisRunner implements JobRunner {
     this.redis = new Redis(endpoint.options);
     this.queue = new Queue(JOB_QUEUE, { connection, prefix: this.namespace, streams: { events: { maxLen: EVENTS_KEPT } } });
     this.events = new QueueEvents(JOB_QUEUE, { connection, prefix: this.namespace });
+    // An unreachable Redis is told by the watch, with since when and the next try; it is
+    // not an error: every command waits for the connection to come back.
+    this.watch = watchRedis(endpoint, this.notice, options.onRedisState);
     const reportError = once(this.notice);
     this.redis.on("error", reportError);
     this.queue.on("error", reportError);
@@ -128,7 +150,7 @@ class RedisRunner implements JobRunner {
     this.bind(job);
     const id = isRefitJob(job) ? refitJobId(job.run, job.trial) : foldJobId(job.run, job.trial, (job as FoldJob).fold);
     return new Promise((resolve, reject) => {
-      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>), reject });
+      this.waiting.set(id, { job, resolve: (outcome) => resolve(outcome as OutcomeOf<J>), reject, queuedAt: Date.now(), requeues: 0, requeueing: false });
       void this.enqueue(id, job);
     });
   }
@@ -138,6 +160,7 @@ class RedisRunner implements JobRunner {
     this.closed = true;
     clearInterval(this.sweeper);
     clearTimeout(this.earlySweep);
+    this.watch.stop();
     // Removals are queued one tick after their results were committed.
     await new Promise((r) => setImmediate(r));
     await Promise.all(this.removals);
@@ -200,9 +223,10 @@ class RedisRunner implements JobRunner {
     if (refused) throw refused;
   }
 
-  private async enqueue(id: string, job: Job): Promise<void> {
-    await this.patiently(`queueing job ${id}`, async () => {
+  private async enqueue(id: string, job: Job, replace = false): Promise<void> {
+    await this.patiently(`queueing job ${id}${replace ? " again" : ""}`, async () => {
       await this.ensureUploaded();
+      if (replace) await this.queue.remove(id);
       await this.queue.add(FOLD_JOB_NAME, job, {
         jobId: id,
         attempts: JOB_ATTEMPTS,
@@ -214,6 +238,27 @@ class RedisRunner implements JobRunner {
       // again by a resumed run may have finished while no coordinator ran and say so
       // ("duplicated") before anyone listens. One early sweep collects them.
       this.earlySweep ??= setTimeout(() => void this.sweep(), EARLY_SWEEP_MS);
+    });
+  }
+
+  /**
+   * A job whose lock lapsed in Redis outages is handed back and counted as stalled, as if
+   * its worker had died; after a few (`maxStalledCount`) BullMQ fails it. When Redis was
+   * unreachable since the job was queued, those were outages, not crashes: the failed job
+   * is replaced by a fresh one instead of becoming a failed fold. Out-of-memory kills with
+   * no outage meanwhile still fail the job.
+   */
+  private lapsedInOutages(waiting: Waiting, failedReason: string): boolean {
+    return STALLED_TOO_OFTEN.test(failedReason) && (this.watch.troubleAt ?? 0) >= waiting.queuedAt && waiting.requeues < MAX_REQUEUES;
+  }
+
+  private requeue(id: string, waiting: Waiting): void {
+    waiting.requeueing = true;
+    waiting.requeues++;
+    this.notice(`job ${id}: its locks lapsed while Redis was unreachable (BullMQ counts that as a dying worker and gave up on it); queued again`);
+    void this.enqueue(id, waiting.job, true).finally(() => {
+      waiting.queuedAt = Date.now();
+      waiting.requeueing = false;
     });
   }
 
@@ -233,7 +278,8 @@ class RedisRunner implements JobRunner {
 
   private settle(id: string, result: { returnvalue: unknown } | { failedReason: string }): void {
     const waiting = this.waiting.get(id);
-    if (!waiting) return;
+    if (!waiting || waiting.requeueing) return;
+    if ("failedReason" in result && this.lapsedInOutages(waiting, result.failedReason)) return this.requeue(id, waiting);
     this.waiting.delete(id);
     // Removed below like any settled job, so the resume that follows queues it again.
     if ("failedReason" in result && isVersionRefusal(result.failedReason)) waiting.reject(new JobsRefusedError(result.failedReason));
@@ -274,7 +320,7 @@ class RedisRunner implements JobRunner {
   }
 
   private failed(job: Job, reason: string): JobOutcome {
-    const error = /stalled more than allowable limit/.test(reason) ? "the workers running this job died each time it ran (out of memory?); it was not tried again" : reason;
+    const error = STALLED_TOO_OFTEN.test(reason) ? "the workers running this job died each time it ran (out of memory?); it was not tried again" : reason;
     if (isRefitJob(job)) return { kind: "refit", trial: job.trial, model: null, fitSeconds: 0, error };
     return { trial: job.trial, fold: (job as FoldJob).fold, score: null, outOfFold: null, fitSeconds: 0, predictSeconds: 0, error };
   }
@@ -285,10 +331,11 @@ class RedisRunner implements JobRunner {
     await Promise.all(
       ids.map(async (id, i) => {
         const waiting = this.waiting.get(id);
-        if (!waiting) return;
+        if (!waiting || waiting.requeueing) return;
         if (states[i] === "completed" || states[i] === "failed") {
           const job = await this.queue.getJob(id);
-          if (!job) return;
+          // Gone, or queued again since its state was read.
+          if (!job || job.finishedOn === undefined) return;
           this.settle(id, states[i] === "completed" ? { returnvalue: job.returnvalue } : { failedReason: job.failedReason });
         } else if (states[i] === "unknown") {
           // Gone from Redis before it was collected (a Redis restart lost it): queue it again.
@@ -346,6 +393,14 @@ class RedisRunner implements JobRunner {
     }
     this.slots = slots;
     const seen = slots > 0;
+    if (!seen && this.workersSeen) {
+      // Workers' entries lapse while Redis is unreachable, and come back within one
+      // heartbeat once it answers: only a longer silence means the workers are gone.
+      if (!this.watch.reachable) this.workersGoneSince = undefined;
+      else this.workersGoneSince ??= Date.now();
+      if (this.workersGoneSince === undefined || Date.now() - this.workersGoneSince < WORKERS_GONE_MS) return;
+    }
+    this.workersGoneSince = undefined;
     if (seen !== this.workersSeen && (this.workersSeen !== undefined || !seen)) {
       this.notice(seen ? `${keys.length} worker process(es) with ${slots} threads are serving namespace '${this.namespace}'` : `no worker is serving namespace '${this.namespace}' on this Redis; jobs wait until one starts (nightshift worker --redis URL)`);
     }
@@ -353,10 +408,11 @@ class RedisRunner implements JobRunner {
   }
 }
 
-/** Reports each distinct connection error once a minute, not at every reconnection attempt. */
+/** Reports each distinct error once a minute, not at every reconnection attempt; a lost connection is the watch's to tell. */
 function once(notice: (message: string) => void): (error: Error) => void {
   const last = new Map<string, number>();
   return (error) => {
+    if (isConnectionError(error)) return;
     const now = Date.now();
     if ((last.get(error.message) ?? 0) > now - 60_000) return;
     last.set(error.message, now);

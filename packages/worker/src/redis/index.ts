@@ -4,3 +4,4 @@ export * from "./pack-cache.js";
 export * from "./queue-layout.js";
 export * from "./queue-worker.js";
 export * from "./redis-url.js";
+export * from "./redis-watch.js";

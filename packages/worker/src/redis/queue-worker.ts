@@ -10,6 +10,7 @@ import type { FoldTask } from "./fold-thread.js";
 import { defaultCacheDir, PackCache } from "./pack-cache.js";
 import { checkNamespace, DEFAULT_NAMESPACE, decodeRunSetup, JOB_QUEUE, type RunSetup, runKey, type WorkerEntry, workerKey } from "./queue-layout.js";
 import { queueConnection, type RedisEndpoint } from "./redis-url.js";
+import { isConnectionError, watchRedis } from "./redis-watch.js";
 
 /** Path of the queue worker's thread task module (compiled JavaScript in dist/). */
 export const FOLD_THREAD_ENTRY = new URL("./fold-thread.js", import.meta.url);
@@ -72,6 +73,8 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
   const id = `${hostname()}-${process.pid}`;
   const redis = new Redis({ ...options.endpoint.options, maxRetriesPerRequest: 3 });
   redis.on("error", quietly(log, "redis"));
+  // Says when Redis stops answering and when it is back; the connections wait and reconnect meanwhile.
+  const watch = watchRedis(options.endpoint, (message) => log(`nightshift worker: ${message}`));
   const packs = new PackCache(redis, namespace, options.cacheDir ?? defaultCacheDir());
   const setups = new Map<string, Promise<RunSetup>>();
   const checkedFolds = new Set<string>();
@@ -190,6 +193,7 @@ export async function startQueueWorker(options: QueueWorkerOptions): Promise<Que
   const close = (): Promise<void> => {
     closing ??= (async () => {
       clearInterval(heartbeat);
+      watch.stop();
       await worker.close();
       await redis.del(workerKey(namespace, id)).catch(() => undefined);
       await threads.destroy();
@@ -216,13 +220,17 @@ function failedOutcome(job: NightshiftJob, message: string, fitSeconds = 0): Job
   return { trial: job.trial, fold: job.fold, score: null, outOfFold: null, fitSeconds, predictSeconds: 0, error: message };
 }
 
-/** Logs connection trouble once per message and minute: a Redis restart is news, not a flood. */
+/** Logs trouble once per message and minute: a Redis restart is news, not a flood (and a lost connection is the watch's to tell). */
 function quietly(log: (line: string) => void, what: string): (error: Error) => void {
   const last = new Map<string, number>();
   return (error) => {
+    if (isConnectionError(error)) return;
+    // Redis out of reach for longer than the lock, most likely: the job went back to the queue, and this result is not taken.
+    const lapsed = /^Missing lock for job (\S+?)\.? move/.exec(error.message);
+    const message = lapsed ? `job ${lapsed[1]}: its lock lapsed (Redis out of reach for longer than --lock-seconds?); the job went back to the queue and runs again` : error.message;
     const now = Date.now();
-    if ((last.get(error.message) ?? 0) > now - 60_000) return;
-    last.set(error.message, now);
-    log(`nightshift worker: ${what}: ${error.message}`);
+    if ((last.get(message) ?? 0) > now - 60_000) return;
+    last.set(message, now);
+    log(lapsed ? `nightshift worker: ${message}` : `nightshift worker: ${what}: ${message}`);
   };
 }
