@@ -177,6 +177,26 @@ describe.skipIf(!privateServers)("a Redis unreachable for 30 s mid-run loses not
     }
   });
 
+  it("lets a worker started while Redis refuses connections wait for it and serve once it answers; a wrong password still stops it at once", async () => {
+    const server = await startRedisServer({ password: "early-secret" });
+    servers.push(server);
+    await server.stop();
+    const ns = testNamespace();
+    const worker = track(spawnCli(["worker", "--redis", server.url, "--namespace", ns, "--concurrency", "1", "--cache", join(dir, "cache-early")], dir));
+    await until("the worker says it waits", () => /waiting for it \(next try in 2 s/.test(worker.output()), 20);
+    expect(worker.output()).toMatch(/connection refused; is Redis running there, and is the port right\?; waiting for it \(next try in 1 s, Ctrl-C to stop\)/);
+    expect(worker.child.exitCode).toBeNull();
+    await server.start();
+    await until("the worker serves", () => worker.output().includes("serving namespace"), 30);
+    expect(worker.output()).toMatch(/Redis at \S+ answered after \d+ s/);
+    // Waiting cannot mend a refused password: that is one message and exit 2, as before.
+    const wrong = spawnCli(["worker", "--redis", server.url.replace("early-secret", "wrong"), "--namespace", ns, "--cache", join(dir, "cache-wrong")], dir);
+    expect(await wrong.exited).toBe(2);
+    expect(wrong.output()).toMatch(/Redis refused the user name or password/);
+    await stopAll([worker]);
+    await server.stop();
+  });
+
   it("waits out a hung Redis (SIGSTOP for 30 s) and ends with the local run's board and predictions", async () => {
     await runThrough("hang");
   }, 180_000);

@@ -212,6 +212,10 @@ describe.skipIf(redis === null)("distributed mode recovers from failures", () =>
       const run = coordinator(runDir, server.url, ns);
       await until("some folds are committed", () => storedFolds(runDir) >= 3);
       await server.restartEmpty();
+      const restarted = { time: Date.now(), folds: storedFolds(runDir) };
+      // Time from the empty restart to the next committed fold result (for docs/RELIABILITY.md).
+      await until("a fold is committed after the restart", () => storedFolds(runDir) > restarted.folds || run.child.exitCode !== null);
+      console.log(`redis-restarted-empty: first fold committed ${Date.now() - restarted.time} ms after the restart`);
       expect(await run.exited, run.output()).toBe(0);
       expect(run.output()).toContain("Redis lost this run's data");
       expect(withoutTimings(boardOf(run))).toEqual(withoutTimings(localBoard));

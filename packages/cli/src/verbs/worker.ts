@@ -1,5 +1,5 @@
 import { InputError } from "@nightshift/core";
-import { checkNamespace, checkRedis, DEFAULT_NAMESPACE, defaultCacheDir, redisEndpoint, startQueueWorker } from "@nightshift/worker";
+import { checkNamespace, DEFAULT_NAMESPACE, defaultCacheDir, redisEndpoint, startQueueWorker, waitForRedis } from "@nightshift/worker";
 import { parseVerbArgs, positiveInteger } from "../args.js";
 import type { Verb } from "../commands.js";
 
@@ -31,7 +31,8 @@ export const workerVerb: Verb = {
     const endpoint = redisEndpoint(values.redis, "nightshift worker --redis");
     const namespace = checkNamespace(values.namespace ?? DEFAULT_NAMESPACE, "nightshift worker --namespace");
     const cacheDir = values.cache ?? defaultCacheDir();
-    await checkRedis(endpoint, "nightshift worker --redis");
+    // A worker is a service: one started before its Redis (or during an outage) waits for it.
+    await waitForRedis(endpoint, "nightshift worker --redis", (line) => process.stderr.write(`${line}\n`));
     const worker = await startQueueWorker({
       endpoint,
       namespace,

@@ -98,8 +98,53 @@ export async function checkRedis(endpoint: RedisEndpoint, where = "--redis", tim
     // password, say) is emitted as an error event, just before or just after.
     const generic = /Connection is closed|Stream isn't writeable/i.test(error instanceof Error ? error.message : "");
     if (generic && lastError === undefined) await new Promise((r) => setTimeout(r, 100));
-    throw new InputError(where, connectionProblem(endpoint, generic && lastError !== undefined ? lastError : error));
+    const cause = generic && lastError !== undefined ? lastError : error;
+    throw new RedisConnectionError(where, connectionProblem(endpoint, cause), isOutOfReach(cause));
   } finally {
     client.disconnect();
+  }
+}
+
+/** A failed connection check: bad input (exit 2), but one that may pass later when `outOfReach`. */
+export class RedisConnectionError extends InputError {
+  constructor(
+    where: string,
+    message: string,
+    /** Nothing answered (refused, timed out, no route): Redis may be starting or the network down, unlike a refused password or a TLS mismatch. */
+    readonly outOfReach: boolean,
+  ) {
+    super(where, message);
+  }
+}
+
+function isOutOfReach(error: unknown): boolean {
+  const code = (error as { code?: unknown } | null)?.code;
+  const message = error instanceof Error ? error.message : String(error);
+  return (typeof code === "string" && ["ECONNREFUSED", "ETIMEDOUT", "EHOSTUNREACH", "ENETUNREACH", "EAI_AGAIN"].includes(code)) || (code === undefined && /timed? ?out/i.test(message));
+}
+
+/** Waits between start-up checks: 1, 2, 4, 8, 16, then every 30 s. */
+export function startupRetryDelay(attempt: number): number {
+  return Math.min(30, 2 ** attempt) * 1000;
+}
+
+/**
+ * `checkRedis` until Redis answers, for a service started before its Redis (a worker on a box
+ * that boots faster): while nothing answers, says so through `log` with the next try's delay;
+ * a problem that waiting cannot mend (a password, TLS, an unknown host) is thrown at once.
+ */
+export async function waitForRedis(endpoint: RedisEndpoint, where: string, log: (line: string) => void, sleep = (ms: number) => new Promise<void>((r) => setTimeout(r, ms))): Promise<void> {
+  const since = Date.now();
+  for (let attempt = 0; ; attempt++) {
+    try {
+      await checkRedis(endpoint, where);
+      if (attempt > 0) log(`${where}: Redis at ${endpoint.label} answered after ${Math.round((Date.now() - since) / 1000)} s`);
+      return;
+    } catch (error) {
+      if (!(error instanceof RedisConnectionError) || !error.outOfReach) throw error;
+      const delay = startupRetryDelay(attempt);
+      log(`${error.message}; waiting for it (next try in ${delay / 1000} s, Ctrl-C to stop)`);
+      await sleep(delay);
+    }
   }
 }
