@@ -64,8 +64,8 @@ const AHEAD = 2;
 const MIN_IN_FLIGHT = 4;
 /** The one early sweep runs this long after the first job is queued (the first round of jobs is queued by then). */
 const EARLY_SWEEP_MS = 300;
-/** Events are a fast path only (the sweep is the safety net): a short stream bounds memory, as results ride in it. */
-const EVENTS_KEPT = 500;
+/** Events are a fast path only (the sweep is the safety net): a short stream bounds memory, as results ride in it (100 results of 1 MB each is 100 MB of Redis). */
+const EVENTS_KEPT = 100;
 /** No worker entry for this long (Redis answering) before the workers are called gone: three heartbeats. */
 const WORKERS_GONE_MS = 15_000;
 /** BullMQ's reason for a job whose lock lapsed more often than the workers allow (`maxStalledCount`). */
