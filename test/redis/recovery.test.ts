@@ -1,5 +1,5 @@
 import { join } from "node:path";
-import { FoldResultSchema, JobResultSchema } from "@nightshift/core";
+import { FoldResultSchema, foldJobId, JOB_SCHEMA_VERSION, JobResultSchema, NODE_MAJOR } from "@nightshift/core";
 import { RunStore } from "@nightshift/store";
 import { JOB_QUEUE, queueConnection, redisEndpoint } from "@nightshift/worker";
 import { Queue, QueueEvents } from "bullmq";
@@ -53,7 +53,7 @@ describe.skipIf(redis === null)("distributed mode recovers from failures", () =>
     processes.push(p);
     return p;
   };
-  const boardOf = (p: Spawned): { rows: Array<Record<string, unknown>> } => JSON.parse(p.stdout());
+  const boardOf = (p: Spawned): { run: string; rows: Array<Record<string, unknown>> } => JSON.parse(p.stdout());
   const coordinator = (runDir: string, redisUrl: string, ns: string): Spawned => track(spawnCli(["run", planPath, "--run-dir", runDir, "--redis", redisUrl, "--namespace", ns, "--json"], dir));
 
   beforeAll(async () => {
@@ -197,6 +197,29 @@ describe.skipIf(redis === null)("distributed mode recovers from failures", () =>
       } finally {
         store.close();
       }
+      expect(await queue.getJobCounts("waiting", "active", "completed", "failed")).toEqual({ waiting: 0, active: 0, completed: 0, failed: 0 });
+    } finally {
+      await queue.close();
+    }
+  });
+
+  it("drops a finished job its killed predecessor left in Redis, also when the resume has nothing left to run", async () => {
+    // A coordinator killed between committing a fold's result and removing its job leaves the
+    // job behind; if that was the last fold, the resume runs no job at all.
+    const ns = namespace();
+    (await startWorkers(url, ns, 1, dir)).map(track);
+    const runDir = join(dir, "leftover");
+    const first = coordinator(runDir, url, ns);
+    expect(await first.exited, first.output()).toBe(0);
+    const runId = boardOf(first).run as string;
+    const queue = new Queue(JOB_QUEUE, { connection: queueConnection(redisEndpoint(url)), prefix: ns });
+    try {
+      // Stands in for the left-behind job: one of this run's job ids, finished (refused at once, so it fails).
+      await queue.add("fold", { schema: JOB_SCHEMA_VERSION, node: NODE_MAJOR, run: runId, dataset: "0".repeat(64), seed: 3, trial: 0, fold: 0, family: "shell", params: {}, timeoutSeconds: null }, { jobId: foldJobId(runId, 0, 0) });
+      await until("the stand-in is finished", async () => (await queue.getJobCounts("failed")).failed === 1);
+      const second = coordinator(runDir, url, ns);
+      expect(await second.exited, second.output()).toBe(0);
+      expect(withoutTimings(boardOf(second))).toEqual(withoutTimings(localBoard));
       expect(await queue.getJobCounts("waiting", "active", "completed", "failed")).toEqual({ waiting: 0, active: 0, completed: 0, failed: 0 });
     } finally {
       await queue.close();

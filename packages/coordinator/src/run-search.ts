@@ -44,7 +44,8 @@ export interface RunOptions {
   /** Run the final step (ensembles, refits, hold-out, ensemble.json) when the search completes; default true. */
   readonly finalStep?: boolean;
   /** Runs fold jobs somewhere else than on local threads (distributed mode). */
-  readonly runner?: (setup: { pack: Uint8Array; foldTests: Uint32Array[]; metric: string }) => JobRunner;
+  /** Makes the job runner for this run (`run` is its id); default: local worker threads. */
+  readonly runner?: (setup: { pack: Uint8Array; foldTests: Uint32Array[]; metric: string; run: string }) => JobRunner;
 }
 
 export interface RunResult extends ScheduleSummary {
@@ -174,7 +175,7 @@ export async function runSearch(options: RunOptions): Promise<RunResult> {
     options.onStart?.({ runId, runDir, resumed, trials: trials.length, folds: foldTests.length, rows: training.rowCount, metric: metric.name });
 
     const setup = { pack, foldTests, metric: metric.name };
-    const runner = options.runner ? options.runner(setup) : createLocalPool(setup, options.workers);
+    const runner = options.runner ? options.runner({ ...setup, run: runId }) : createLocalPool(setup, options.workers);
     let summary: ScheduleSummary;
     let finalStep: FinalStepResult | null = null;
     try {

@@ -60,6 +60,7 @@ export async function runAndReport(options: RunVerbOptions): Promise<number> {
         ? (setup) =>
             createRedisRunner(redis.endpoint, setup, {
               namespace: redis.namespace,
+              run: setup.run,
               onNotice: (message) => (bar ? bar.log(`nightshift: ${message}`) : process.stderr.write(`nightshift: ${message}\n`)),
               onRedisState: (since) => bar?.note(since === null ? null : `Redis unreachable since ${clock(since.getTime())}`),
             })

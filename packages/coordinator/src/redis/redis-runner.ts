@@ -33,6 +33,11 @@ import { uploadPack } from "./pack-upload.js";
 export interface RedisRunnerOptions {
   /** Namespace of the queue and keys on this Redis (the workers must use the same); default `nightshift`. */
   readonly namespace?: string;
+  /**
+   * The run this runner serves, when known before its first job: a resume with nothing left to
+   * run still drops the finished jobs its killed predecessor left in Redis.
+   */
+  readonly run?: string;
   /** How often jobs in flight, this run's keys and the live workers are checked; default 2 s. */
   readonly sweepSeconds?: number;
   /**
@@ -113,6 +118,7 @@ class RedisRunner implements JobRunner {
   private workersGoneSince: number | undefined;
   private sweeping = false;
   private closed = false;
+  private readonly runId: string | undefined;
 
   constructor(
     endpoint: RedisEndpoint,
@@ -121,6 +127,7 @@ class RedisRunner implements JobRunner {
   ) {
     this.namespace = checkNamespace(options.namespace ?? DEFAULT_NAMESPACE);
     this.keepMs = Math.round((options.keepSeconds ?? 7 * 24 * 3600) * 1000);
+    this.runId = options.run;
     this.notice = options.onNotice ?? ((message) => console.error(`nightshift: ${message}`));
     const connection = queueConnection(endpoint);
     this.redis = new Redis(endpoint.options);
@@ -164,10 +171,11 @@ class RedisRunner implements JobRunner {
     // Removals are queued one tick after their results were committed.
     await new Promise((r) => setImmediate(r));
     await Promise.all(this.removals);
-    if (this.bound && this.waiting.size === 0) {
+    const run = this.bound?.run ?? this.runId;
+    if (run !== undefined && this.waiting.size === 0) {
       // Nothing in flight: the run's setup is not needed until it runs again (it is uploaded then).
-      await this.redis.del(runKey(this.namespace, this.bound.run)).catch(() => undefined);
-      await this.dropLeftovers(this.bound.run).catch(() => undefined);
+      await this.redis.del(runKey(this.namespace, run)).catch(() => undefined);
+      await this.dropLeftovers(run).catch(() => undefined);
     }
     await this.events.close();
     await this.queue.close();
