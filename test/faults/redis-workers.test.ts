@@ -7,7 +7,7 @@ import { type Job, UnrecoverableError, Worker } from "bullmq";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { soakSeeds } from "./soak.js";
 import { allPredictions, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
-import { dropNamespace, findRedis, type Spawned, spawnCli, startWorkers, stopAll, testNamespace } from "../redis/redis-fixture.js";
+import { findRedis, redisSession, type Spawned, spawnCli, startWorkers, stopAll } from "../redis/redis-fixture.js";
 import { sleep, storeAudit } from "./kill-moments.js";
 
 const redis = await findRedis();
@@ -61,20 +61,10 @@ families:
 describe.skipIf(redis === null)("workers killed and started during a Redis run", () => {
   const url = redis?.url ?? "";
   const dir = tempDir("redis-workers");
-  const namespaces: string[] = [];
-  const processes: Spawned[] = [];
+  const { namespace, track, cleanup } = redisSession(url);
   let planPath = "";
   let localBoard: Board;
 
-  const namespace = (): string => {
-    const ns = testNamespace();
-    namespaces.push(ns);
-    return ns;
-  };
-  const track = (p: Spawned): Spawned => {
-    processes.push(p);
-    return p;
-  };
   const coordinator = (plan: string, runDir: string, ns: string): Spawned => track(spawnCli(["run", plan, "--run-dir", runDir, "--redis", url, "--namespace", ns, "--search-only", "--json"], dir));
 
   beforeAll(async () => {
@@ -86,8 +76,7 @@ describe.skipIf(redis === null)("workers killed and started during a Redis run",
   });
 
   afterAll(async () => {
-    await stopAll(processes);
-    for (const ns of namespaces) await dropNamespace(url, ns).catch(() => undefined);
+    await cleanup();
     await redis?.stop();
   });
 

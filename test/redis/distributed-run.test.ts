@@ -8,16 +8,13 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { SMALL_FAMILIES, tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 import {
   allPredictions,
-  dropNamespace,
   findRedis,
+  redisSession,
   hasRedisServer,
-  type Spawned,
   spawnCli,
   startRedisServer,
   startWorkers,
-  stopAll,
   TEST_CA,
-  testNamespace,
   until,
 } from "./redis-fixture.js";
 
@@ -36,19 +33,12 @@ ${SMALL_FAMILIES}`;
 describe.skipIf(redis === null)("distributed mode on a real Redis", () => {
   const url = redis?.url ?? "";
   const dir = tempDir("redis-run");
-  const namespaces: string[] = [];
-  const processes: Spawned[] = [];
+  const { namespace, track, cleanup } = redisSession(url);
   let planPath = "";
   let localBoard: unknown;
 
-  const namespace = (): string => {
-    const ns = testNamespace();
-    namespaces.push(ns);
-    return ns;
-  };
   const cli = async (args: string[], env: NodeJS.ProcessEnv = {}): Promise<{ code: number | null; output: string; stdout: string }> => {
-    const child = spawnCli(args, dir, env);
-    processes.push(child);
+    const child = track(spawnCli(args, dir, env));
     const code = await child.exited;
     return { code, output: child.output(), stdout: child.stdout() };
   };
@@ -62,14 +52,13 @@ describe.skipIf(redis === null)("distributed mode on a real Redis", () => {
   });
 
   afterAll(async () => {
-    await stopAll(processes);
-    for (const ns of namespaces) await dropNamespace(url, ns);
+    await cleanup();
     await redis?.stop();
   });
 
   it("runs a plan on a coordinator and 3 worker processes with the local run's board and stored predictions", async () => {
     const ns = namespace();
-    processes.push(...(await startWorkers(url, ns, 3, dir)));
+    (await startWorkers(url, ns, 3, dir)).map(track);
     const runDir = join(dir, "distributed");
     const run = await cli(["run", planPath, "--run-dir", runDir, "--redis", url, "--namespace", ns, "--json"]);
     expect(run.code, run.output).toBe(0);
@@ -93,7 +82,7 @@ describe.skipIf(redis === null)("distributed mode on a real Redis", () => {
   it("fails hostile jobs injected into the queue without running them, and the worker goes on serving", async () => {
     const ns = namespace();
     const [worker] = await startWorkers(url, ns, 1, dir);
-    processes.push(worker);
+    track(worker);
     const valid = {
       schema: 1,
       node: NODE_MAJOR,
@@ -145,7 +134,7 @@ describe.skipIf(redis === null)("distributed mode on a real Redis", () => {
   it("stops a fit over its time limit on the worker, records it as timed out, and the worker goes on", async () => {
     const ns = namespace();
     const [worker] = await startWorkers(url, ns, 1, dir);
-    processes.push(worker);
+    track(worker);
     // 0.01 minutes over 3 folds: 0.2 s per fold, far less than 5000 unpruned trees need.
     const slow = writePlan(
       dir,
@@ -190,7 +179,7 @@ describe.skipIf(redis === null)("distributed mode on a real Redis", () => {
 
       const ns = namespace();
       const trust = { NODE_EXTRA_CA_CERTS: TEST_CA };
-      processes.push(...(await startWorkers(server.url, ns, 1, dir, [], trust)));
+      (await startWorkers(server.url, ns, 1, dir, [], trust)).map(track);
       const small = writePlan(dir, PLAN.replace("budget: { trials: 9 }\nhalving: { eta: 3 }", "budget: { trials: 2 }"), "tls.plan.yaml");
       const run = await cli(["run", small, "--run-dir", join(dir, "tls"), "--redis", server.url, "--namespace", ns, "--json"], trust);
       expect(run.code, run.output).toBe(0);

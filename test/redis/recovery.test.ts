@@ -7,16 +7,14 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { tempDir, withoutTimings, writePlan, writeSmallTurbines } from "../e2e/helpers.js";
 import {
   allPredictions,
-  dropNamespace,
   findRedis,
+  redisSession,
   hasRedisServer,
   type Spawned,
   spawnCli,
   startRedisServer,
   startWorkers,
-  stopAll,
   storedFolds,
-  testNamespace,
   until,
 } from "./redis-fixture.js";
 
@@ -39,20 +37,10 @@ const JOBS = 4 * 3;
 describe.skipIf(redis === null)("distributed mode recovers from failures", () => {
   const url = redis?.url ?? "";
   const dir = tempDir("redis-recovery");
-  const namespaces: string[] = [];
-  const processes: Spawned[] = [];
+  const { namespace, track, cleanup } = redisSession(url);
   let planPath = "";
   let localBoard: { rows: Array<Record<string, unknown>> };
 
-  const namespace = (): string => {
-    const ns = testNamespace();
-    namespaces.push(ns);
-    return ns;
-  };
-  const track = (p: Spawned): Spawned => {
-    processes.push(p);
-    return p;
-  };
   const boardOf = (p: Spawned): { run: string; rows: Array<Record<string, unknown>> } => JSON.parse(p.stdout());
   const coordinator = (runDir: string, redisUrl: string, ns: string): Spawned => track(spawnCli(["run", planPath, "--run-dir", runDir, "--redis", redisUrl, "--namespace", ns, "--json"], dir));
 
@@ -65,8 +53,7 @@ describe.skipIf(redis === null)("distributed mode recovers from failures", () =>
   });
 
   afterAll(async () => {
-    await stopAll(processes);
-    for (const ns of namespaces) await dropNamespace(url, ns).catch(() => undefined);
+    await cleanup();
     await redis?.stop();
   });
 

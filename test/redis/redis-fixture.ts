@@ -201,3 +201,33 @@ export async function stopAll(processes: readonly Spawned[]): Promise<void> {
     }),
   );
 }
+
+/** The namespaces and processes a test file makes on one Redis, all cleaned up at its end. */
+export interface RedisSession {
+  /** A fresh namespace, dropped at the end. */
+  namespace(): string;
+  /** A process, killed at the end if it still runs. */
+  track(process: Spawned): Spawned;
+  /** Kills every tracked process and drops every namespace. */
+  cleanup(): Promise<void>;
+}
+
+export function redisSession(url: string): RedisSession {
+  const namespaces: string[] = [];
+  const processes: Spawned[] = [];
+  return {
+    namespace() {
+      const ns = testNamespace();
+      namespaces.push(ns);
+      return ns;
+    },
+    track(process) {
+      processes.push(process);
+      return process;
+    },
+    async cleanup() {
+      await stopAll(processes);
+      for (const ns of namespaces) await dropNamespace(url, ns).catch(() => undefined);
+    },
+  };
+}
