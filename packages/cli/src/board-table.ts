@@ -48,7 +48,7 @@ export function formatBoard(board: Board, width = 140): string {
         `  ${e.final ? "*" : " "} ${e.kind.padEnd(9)}  out-of-fold ${fmt(e.mean)} ± ${fmt(e.std)}   nested ${fmt(e.nested.mean)} ± ${fmt(e.nested.std)}${tie}   ${membersText(e.members, e.kind)}`,
       );
       const curve = e.curve.filter((v): v is number => v !== null);
-      if (curve.length > 1) out.push(`      hillclimb curve over ${curve.length} rounds: ${fmt(curve[0])} → best ${fmt(board.direction === "max" ? Math.max(...curve) : Math.min(...curve))} → last ${fmt(curve[curve.length - 1])}`);
+      if (curve.length > 1) out.push(`      hillclimb curve over ${curve.length} rounds (score of all out-of-fold rows pooled, not a mean over folds): ${fmt(curve[0])} → best ${fmt(board.direction === "max" ? Math.max(...curve) : Math.min(...curve))} → last ${fmt(curve[curve.length - 1])}`);
       if (e.note) out.push(`      note: ${e.note}`);
     }
     if (board.ensembles.some((e) => e.final)) out.push("  * exported to ensemble.json (chosen by the nested estimate, before the hold-out was opened)");
