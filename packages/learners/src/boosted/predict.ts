@@ -3,6 +3,7 @@ import { type BinMapper, MISSING_BIN } from "../binning/bin-mapper.js";
 import { binOf, paddedEdges } from "./bin-search.js";
 import { BITSET_WORDS } from "./split-gain.js";
 import type { TreeEnsemble } from "./tree-ensemble.js";
+import { walkKernel } from "./walk-kernel.js";
 
 /** Most features a model can have: a node addresses one of 2·features bin columns in 16 bits. */
 export const MAX_FEATURES = 32_767;
@@ -91,9 +92,18 @@ const BLOCK_ROWS = 512;
 /**
  * Adds every tree's leaf value to `raw` (row-major, `outputs` per row, pre-filled with the
  * initial scores). Rows are binned with the training mapper a block at a time, then trees
- * outer, rows inner, eight rows walked together so their independent steps overlap.
+ * outer, rows inner, eight rows walked together so their independent steps overlap. The walk
+ * runs in the WebAssembly kernel of walk-kernel.ts (same steps, same order of additions, same
+ * scores); `engine: "javascript"` (or a model too large for the kernel) walks in JavaScript.
  */
-export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: TableView, outputs: number, raw: Float64Array): void {
+export function addTreeScores(
+  compiled: CompiledTrees,
+  mapper: BinMapper,
+  view: TableView,
+  outputs: number,
+  raw: Float64Array,
+  engine: "webassembly" | "javascript" = "webassembly",
+): void {
   const n = view.rows.length;
   const features = compiled.features;
   mapper.features.forEach((bins, f) => {
@@ -102,6 +112,18 @@ export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: 
       throw new TypeError(`feature ${column.name}: fitted as ${bins.kind}, given ${column.kind === "categorical" ? "categorical" : "numeric"}`);
     }
   });
+  const kernel = engine === "webassembly" && n > 0 ? walkKernel(compiled, BLOCK_ROWS, outputs) : undefined;
+  if (kernel !== undefined) {
+    for (let first = 0; first < n; first += BLOCK_ROWS) {
+      const count = Math.min(BLOCK_ROWS, n - first);
+      binBlock(compiled, mapper, view, first, count, kernel.block);
+      const scores = raw.subarray(first * outputs, (first + count) * outputs);
+      kernel.raw.set(scores);
+      kernel.walk(count);
+      scores.set(kernel.raw.subarray(0, count * outputs));
+    }
+    return;
+  }
   const block = new Uint8Array(BLOCK_ROWS * 2 * features);
   for (let first = 0; first < n; first += BLOCK_ROWS) {
     const count = Math.min(BLOCK_ROWS, n - first);

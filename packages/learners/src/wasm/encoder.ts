@@ -99,6 +99,9 @@ export class FunctionBody {
   i32Load8U(offset: number): this {
     return this.op(0x2d, ...this.memarg(0, offset));
   }
+  i32Load16U(offset: number): this {
+    return this.op(0x2f, ...this.memarg(1, offset));
+  }
   i32Store(offset: number): this {
     return this.op(0x36, ...this.memarg(2, offset));
   }
@@ -148,8 +151,17 @@ export class FunctionBody {
   i32Mul(): this {
     return this.op(0x6c);
   }
+  i32And(): this {
+    return this.op(0x71);
+  }
   i32Or(): this {
     return this.op(0x72);
+  }
+  i32Xor(): this {
+    return this.op(0x73);
+  }
+  i32ShrU(): this {
+    return this.op(0x76);
   }
   i32Shl(): this {
     return this.op(0x74);

@@ -1,0 +1,217 @@
+import { encodeModule, FunctionBody, I32, instantiate, type WasmFunction, type WasmMemory } from "../wasm/encoder.js";
+import { BITSET_WORDS } from "./split-gain.js";
+
+/**
+ * The tree walk of prediction as a WebAssembly kernel: the same steps as the JavaScript walk of
+ * predict.ts (same node encoding, same two bin encodings per row, trees outer and rows inner,
+ * eight rows walked together), but each step is a handful of plain i32 instructions: loads need
+ * no bounds check of their own (the engine's guard pages cover the 32-bit address space) and
+ * additions no overflow check. Leaf values are added to each row's score in tree order, exactly as
+ * the JavaScript walk adds them, so the scores are the same bits.
+ *
+ * Layout of the kernel memory for a loaded model of N nodes, T trees and S category sets (byte
+ * addresses; a node's address is 8·n):
+ * - nodes at 0, 8 bytes each: the packed word of CompiledTrees.node (column in bytes 0-1,
+ *   threshold in byte 2, categorical flag in byte 3), then the left child's address;
+ * - leaf values (f64) at `values`: node n's at values + 8·n;
+ * - for models with categorical nodes, at `sets` + 8·n the address of node n's 256-bit set
+ *   (for other nodes the first set's, never read), and the sets themselves at `bits`;
+ * - the root address and the depth of each tree (i32) at `roots` and `depths`;
+ * - one block of binned rows at `block` and its rows' scores (f64, `outputs` per row) at `raw`.
+ *
+ * One kernel (and memory) serves the process; it holds the last model it walked and copies the
+ * next one in when another model predicts. A model whose layout would not fit in 2 GiB is walked
+ * in JavaScript.
+ */
+export interface WalkKernel {
+  /** The block of binned rows (rows × 2·features bytes) to be filled by the caller. */
+  readonly block: Uint8Array;
+  /** Scores of the block's rows, `outputs` per row: to be filled, walked, then read back. */
+  readonly raw: Float64Array;
+  /** Adds every tree's leaf value to the scores of the block's first `count` rows. */
+  walk(count: number): void;
+}
+
+export interface WalkedTrees {
+  readonly treeCount: number;
+  readonly features: number;
+  readonly root: Int32Array;
+  readonly depth: Int32Array;
+  readonly node: Int32Array;
+  readonly value: Float64Array;
+  readonly set: Int32Array;
+  readonly bits: Uint32Array;
+  readonly hasCategorical: boolean;
+}
+
+const LAYOUT_LIMIT = 2 ** 31;
+const cache: { compiled?: object } = {};
+let current: { memory: WasmMemory; exports: Record<string, WasmFunction>; bytes: number } | undefined;
+let loaded: { trees: WalkedTrees; rows: number; outputs: number; kernel: WalkKernel } | undefined;
+
+const align8 = (bytes: number) => Math.ceil(bytes / 8) * 8;
+
+/** The kernel loaded with `trees` for blocks of `rows` rows, or undefined when the model is too large. */
+export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): WalkKernel | undefined {
+  if (loaded !== undefined && loaded.trees === trees && loaded.rows === rows && loaded.outputs === outputs) return loaded.kernel;
+  const nodes = trees.node.length / 2;
+  const stride = 2 * trees.features;
+  const values = 8 * nodes;
+  const sets = values + 8 * nodes;
+  const bits = sets + (trees.hasCategorical ? 8 * nodes : 0);
+  const roots = align8(bits + (trees.hasCategorical ? 4 * trees.bits.length : 0));
+  const depths = roots + 4 * trees.treeCount;
+  const block = align8(depths + 4 * trees.treeCount);
+  const raw = align8(block + rows * stride);
+  const total = raw + 8 * rows * outputs;
+  if (total > LAYOUT_LIMIT) return undefined;
+  if (current === undefined || current.bytes < total) {
+    // Room to spare, so that the next few models rarely need a new memory.
+    const bytes = Math.min(LAYOUT_LIMIT, 2 * total);
+    current = { ...instantiate(walkModule, cache, bytes), bytes };
+  }
+  const { memory, exports } = current;
+  const buffer = memory.buffer;
+  const nodeWords = new Int32Array(buffer, 0, 2 * nodes);
+  for (let n = 0; n < nodes; n++) {
+    nodeWords[2 * n] = trees.node[2 * n];
+    nodeWords[2 * n + 1] = 8 * trees.node[2 * n + 1];
+  }
+  new Float64Array(buffer, values, nodes).set(trees.value);
+  if (trees.hasCategorical) {
+    const setAddress = new Int32Array(buffer, sets, 2 * nodes);
+    for (let n = 0; n < nodes; n++) setAddress[2 * n] = bits + 4 * BITSET_WORDS * Math.max(0, trees.set[n]);
+    new Uint32Array(buffer, bits, trees.bits.length).set(trees.bits);
+  }
+  const rootAddress = new Int32Array(buffer, roots, trees.treeCount);
+  for (let t = 0; t < trees.treeCount; t++) rootAddress[t] = 8 * trees.root[t];
+  new Int32Array(buffer, depths, trees.treeCount).set(trees.depth);
+  const run = trees.hasCategorical ? exports.walkCategorical : exports.walk;
+  const treeCount = trees.treeCount;
+  const kernel: WalkKernel = {
+    block: new Uint8Array(buffer, block, rows * stride),
+    raw: new Float64Array(buffer, raw, rows * outputs),
+    walk: (count) => run(treeCount, roots, depths, values, block, count, stride, raw, outputs, sets),
+  };
+  loaded = { trees, rows, outputs, kernel };
+  return kernel;
+}
+
+/** Rows walked together. */
+const GROUP = 8;
+
+// Parameters of both functions.
+const TREES = 0;
+const ROOTS = 1;
+const DEPTHS = 2;
+const VALUES = 3;
+const BINS = 4;
+const COUNT = 5;
+const STRIDE = 6;
+const RAW = 7;
+const OUTPUTS = 8;
+const SETS = 9;
+const PARAMS = 10;
+// i32 locals.
+const t = 10;
+const root = 11;
+const depth = 12;
+const s = 13;
+const r = 14;
+const out = 15;
+const rowBytes = 16;
+const o = 17;
+const p = 18;
+const right = 19;
+const b = 20;
+const row = 21;
+const node = (k: number) => 22 + k;
+const base = (k: number) => 22 + GROUP + k;
+const LOCALS = 22 + 2 * GROUP - PARAMS;
+
+/** walk / walkCategorical(trees, roots, depths, values, bins, count, stride, raw, outputs, sets). */
+export function walkModule(): Uint8Array {
+  const spec = (exportName: string, categorical: boolean) => ({
+    exportName,
+    params: new Array<number>(PARAMS).fill(I32) as (typeof I32)[],
+    results: [],
+    locals: new Array<number>(LOCALS).fill(I32) as (typeof I32)[],
+    body: walkFunction(categorical),
+  });
+  return encodeModule([spec("walk", false), spec("walkCategorical", true)]);
+}
+
+/** One step of row k: node(k) moves to its left child, or the right one (8 bytes further). */
+function step(f: FunctionBody, k: number, categorical: boolean): void {
+  const n = node(k);
+  if (!categorical) {
+    // left + ((threshold − bin) >>> 31) · 8
+    f.localGet(n).i32Load(4);
+    f.localGet(n).i32Load8U(2);
+    f.localGet(base(k)).localGet(n).i32Load16U(0).i32Add().i32Load8U(0);
+    f.i32Sub().i32Const(31).i32ShrU().i32Const(3).i32Shl().i32Add().localSet(n);
+    return;
+  }
+  f.localGet(n).i32Load(0).localSet(p);
+  f.localGet(base(k)).localGet(p).i32Const(0xffff).i32And().i32Add().i32Load8U(0).localSet(b);
+  f.localGet(p).i32Const(16).i32ShrU().localGet(b).i32Sub().i32Const(31).i32ShrU().localSet(right);
+  f.localGet(p).i32Const(24).i32ShrU();
+  f.if(() => {
+    // Right when the bin is outside the set: 1 ^ (word[b >>> 5] >>> (b & 31)) & 1.
+    f.localGet(SETS).localGet(n).i32Add().i32Load(0).localGet(b).i32Const(5).i32ShrU().i32Const(2).i32Shl().i32Add().i32Load(0);
+    f.localGet(b).i32ShrU().i32Const(1).i32And().i32Const(1).i32Xor().localSet(right);
+  });
+  f.localGet(n).i32Load(4).localGet(right).i32Const(3).i32Shl().i32Add().localSet(n);
+}
+
+/** Walks rows r.. in groups of `size` while a whole group remains, each row `depth` steps, and adds the leaves' values. */
+function walkGroups(f: FunctionBody, size: number, categorical: boolean): void {
+  f.block(() =>
+    f.loop(() => {
+      f.localGet(COUNT).localGet(r).i32Const(size).i32Add().i32LtU().brIf(1);
+      f.localGet(BINS).localGet(r).localGet(STRIDE).i32Mul().i32Add().localSet(base(0));
+      for (let k = 1; k < size; k++) f.localGet(base(k - 1)).localGet(STRIDE).i32Add().localSet(base(k));
+      for (let k = 0; k < size; k++) f.localGet(root).localSet(node(k));
+      f.localGet(depth).localSet(s);
+      f.block(() =>
+        f.loop(() => {
+          f.localGet(s).i32Eqz().brIf(1);
+          for (let k = 0; k < size; k++) step(f, k, categorical);
+          f.localGet(s).i32Const(1).i32Sub().localSet(s);
+          f.br(0);
+        }),
+      );
+      f.localGet(out).localGet(r).localGet(rowBytes).i32Mul().i32Add().localSet(row);
+      for (let k = 0; k < size; k++) {
+        f.localGet(row).localGet(row).f64Load(0).localGet(VALUES).localGet(node(k)).i32Add().f64Load(0).f64Add().f64Store(0);
+        if (k + 1 < size) f.localGet(row).localGet(rowBytes).i32Add().localSet(row);
+      }
+      f.localGet(r).i32Const(size).i32Add().localSet(r);
+      f.br(0);
+    }),
+  );
+}
+
+function walkFunction(categorical: boolean): FunctionBody {
+  const f = new FunctionBody();
+  f.localGet(OUTPUTS).i32Const(8).i32Mul().localSet(rowBytes);
+  f.i32Const(0).localSet(t);
+  f.i32Const(0).localSet(o);
+  f.block(() =>
+    f.loop(() => {
+      f.localGet(t).localGet(TREES).i32GeU().brIf(1);
+      f.localGet(ROOTS).localGet(t).i32Const(2).i32Shl().i32Add().i32Load(0).localSet(root);
+      f.localGet(DEPTHS).localGet(t).i32Const(2).i32Shl().i32Add().i32Load(0).localSet(depth);
+      // Tree t adds to output t mod outputs.
+      f.localGet(RAW).localGet(o).i32Const(3).i32Shl().i32Add().localSet(out);
+      f.i32Const(0).localSet(r);
+      walkGroups(f, GROUP, categorical);
+      walkGroups(f, 1, categorical);
+      f.localGet(t).i32Const(1).i32Add().localSet(t);
+      f.localGet(o).i32Const(1).i32Add().localTee(o).localGet(OUTPUTS).i32Eq();
+      f.if(() => f.i32Const(0).localSet(o));
+      f.br(0);
+    }),
+  );
+  return f;
+}
