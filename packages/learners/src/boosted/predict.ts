@@ -3,7 +3,7 @@ import { type BinMapper, MISSING_BIN } from "../binning/bin-mapper.js";
 import { binOf, paddedEdges } from "./bin-search.js";
 import { BITSET_WORDS } from "./split-gain.js";
 import type { TreeEnsemble } from "./tree-ensemble.js";
-import { walkKernel } from "./walk-kernel.js";
+import { type WalkKernel, walkKernel } from "./walk-kernel.js";
 
 /** Most features a model can have: a node addresses one of 2·features bin columns in 16 bits. */
 export const MAX_FEATURES = 32_767;
@@ -116,7 +116,7 @@ export function addTreeScores(
   if (kernel !== undefined) {
     for (let first = 0; first < n; first += BLOCK_ROWS) {
       const count = Math.min(BLOCK_ROWS, n - first);
-      binBlock(compiled, mapper, view, first, count, kernel.block);
+      binBlock(compiled, mapper, view, first, count, kernel.block, kernel);
       const scores = raw.subarray(first * outputs, (first + count) * outputs);
       kernel.raw.set(scores);
       kernel.walk(count);
@@ -134,7 +134,7 @@ export function addTreeScores(
 }
 
 /** Bins rows first..first+count-1 of the view into the block (both encodings, see CompiledTrees). */
-function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, first: number, count: number, block: Uint8Array): void {
+function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, first: number, count: number, block: Uint8Array, kernel?: WalkKernel): void {
   const features = compiled.features;
   const stride = 2 * features;
   const rows = view.rows;
@@ -153,6 +153,11 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
         block[r * stride + f] = b;
         block[r * stride + features + f] = b + 1;
       }
+    } else if (column.kind !== "categorical" && kernel !== undefined) {
+      const values = column.values;
+      const into = kernel.column;
+      for (let r = 0; r < count; r++) into[r] = values[rows[first + r]];
+      kernel.binColumn(f, count);
     } else if (column.kind !== "categorical") {
       const values = column.values;
       const e = 256 * f;

@@ -1,4 +1,4 @@
-import { encodeModule, FunctionBody, I32, instantiate, type WasmFunction, type WasmMemory } from "../wasm/encoder.js";
+import { encodeModule, F64, FunctionBody, I32, instantiate, type WasmFunction, type WasmMemory } from "../wasm/encoder.js";
 import { BITSET_WORDS } from "./split-gain.js";
 
 /**
@@ -17,7 +17,9 @@ import { BITSET_WORDS } from "./split-gain.js";
  * - for models with categorical nodes, at `sets` + 8·n the address of node n's 256-bit set
  *   (for other nodes the first set's, never read), and the sets themselves at `bits`;
  * - the root address and the depth of each tree (i32) at `roots` and `depths`;
- * - one block of binned rows at `block` and its rows' scores (f64, `outputs` per row) at `raw`.
+ * - one block of binned rows at `block` and its rows' scores (f64, `outputs` per row) at `raw`;
+ * - the padded bin edges (f64, 256 per feature) at `edges`, and one column of the block's
+ *   values (f64) at `column`, binned there with the eight halvings of bin-search.ts.
  *
  * One kernel (and memory) serves the process; it holds the last model it walked and copies the
  * next one in when another model predicts. A model whose layout would not fit in 2 GiB is walked
@@ -28,6 +30,10 @@ export interface WalkKernel {
   readonly block: Uint8Array;
   /** Scores of the block's rows, `outputs` per row: to be filled, walked, then read back. */
   readonly raw: Float64Array;
+  /** One numeric column's values for the block's rows, to be filled by the caller before `binColumn`. */
+  readonly column: Float64Array;
+  /** Bins the first `count` values of `column` as feature f into the block (both encodings, as binOf). */
+  binColumn(f: number, count: number): void;
   /** Adds every tree's leaf value to the scores of the block's first `count` rows. */
   walk(count: number): void;
 }
@@ -42,6 +48,8 @@ export interface WalkedTrees {
   readonly set: Int32Array;
   readonly bits: Uint32Array;
   readonly hasCategorical: boolean;
+  /** Per numeric feature, its upper edges padded with +∞ to 256 (see bin-search.ts). */
+  readonly edges: Float64Array;
 }
 
 const LAYOUT_LIMIT = 2 ** 31;
@@ -63,7 +71,9 @@ export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): W
   const depths = roots + 4 * trees.treeCount;
   const block = align8(depths + 4 * trees.treeCount);
   const raw = align8(block + rows * stride);
-  const total = raw + 8 * rows * outputs;
+  const edges = raw + 8 * rows * outputs;
+  const column = edges + 8 * trees.edges.length;
+  const total = column + 8 * rows;
   if (total > LAYOUT_LIMIT) return undefined;
   if (current === undefined || current.bytes < total) {
     // Room to spare, so that the next few models rarely need a new memory.
@@ -86,11 +96,15 @@ export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): W
   const rootAddress = new Int32Array(buffer, roots, trees.treeCount);
   for (let t = 0; t < trees.treeCount; t++) rootAddress[t] = 8 * trees.root[t];
   new Int32Array(buffer, depths, trees.treeCount).set(trees.depth);
+  new Float64Array(buffer, edges, trees.edges.length).set(trees.edges);
+  const features = trees.features;
   const run = trees.hasCategorical ? exports.walkCategorical : exports.walk;
   const treeCount = trees.treeCount;
   const kernel: WalkKernel = {
     block: new Uint8Array(buffer, block, rows * stride),
     raw: new Float64Array(buffer, raw, rows * outputs),
+    column: new Float64Array(buffer, column, rows),
+    binColumn: (f, count) => exports.bin(edges + 2048 * f, column, count, block + f, stride, features),
     walk: (count) => run(treeCount, roots, depths, values, block, count, stride, raw, outputs, sets),
   };
   loaded = { trees, rows, outputs, kernel };
@@ -138,7 +152,45 @@ export function walkModule(): Uint8Array {
     locals: new Array<number>(LOCALS).fill(I32) as (typeof I32)[],
     body: walkFunction(categorical),
   });
-  return encodeModule([spec("walk", false), spec("walkCategorical", true)]);
+  return encodeModule([spec("walk", false), spec("walkCategorical", true), binFunction()]);
+}
+
+/**
+ * bin(edges, values, count, bins, stride, features): for each value v, b = the number of the
+ * feature's edges below v (eight halvings), 255 for NaN; bins[r·stride] = b and
+ * bins[r·stride + features] = b + 1 (a byte: 255 + 1 wraps to 0).
+ */
+function binFunction() {
+  const EDGES = 0;
+  const VALUES_AT = 1;
+  const ROWS = 2;
+  const OUT = 3;
+  const ROW_STRIDE = 4;
+  const FEATURES = 5;
+  const offset = 6;
+  const v = 7;
+  const f = new FunctionBody();
+  f.block(() =>
+    f.loop(() => {
+      f.localGet(ROWS).i32Eqz().brIf(1);
+      f.localGet(VALUES_AT).f64Load(0).localSet(v);
+      // offset = 8·b, built from the top bit down: offset += (edges[b + 2^s − 1] < v) << (s + 3).
+      f.i32Const(0).localSet(offset);
+      for (let bit = 7; bit >= 0; bit--) {
+        f.localGet(EDGES).localGet(offset).i32Add().f64Load(8 * ((1 << bit) - 1)).localGet(v).f64Lt();
+        f.i32Const(bit + 3).i32Shl().localGet(offset).i32Add().localSet(offset);
+      }
+      f.localGet(OUT);
+      f.i32Const(255).localGet(offset).i32Const(3).i32ShrU().localGet(v).localGet(v).f64Ne().select().localTee(offset);
+      f.i32Store8(0);
+      f.localGet(OUT).localGet(FEATURES).i32Add().localGet(offset).i32Const(1).i32Add().i32Store8(0);
+      f.localGet(OUT).localGet(ROW_STRIDE).i32Add().localSet(OUT);
+      f.localGet(VALUES_AT).i32Const(8).i32Add().localSet(VALUES_AT);
+      f.localGet(ROWS).i32Const(1).i32Sub().localSet(ROWS);
+      f.br(0);
+    }),
+  );
+  return { exportName: "bin", params: new Array<number>(6).fill(I32) as (typeof I32)[], results: [], locals: [I32, F64] as (typeof I32 | typeof F64)[], body: f };
 }
 
 /** One step of row k: node(k) moves to its left child, or the right one (8 bytes further). */

@@ -105,6 +105,9 @@ export class FunctionBody {
   i32Store(offset: number): this {
     return this.op(0x36, ...this.memarg(2, offset));
   }
+  i32Store8(offset: number): this {
+    return this.op(0x3a, ...this.memarg(0, offset));
+  }
   f64Store(offset: number): this {
     return this.op(0x39, ...this.memarg(3, offset));
   }
@@ -133,6 +136,12 @@ export class FunctionBody {
   }
   i32Eq(): this {
     return this.op(0x46);
+  }
+  f64Lt(): this {
+    return this.op(0x63);
+  }
+  f64Ne(): this {
+    return this.op(0x62);
   }
   f64Const(value: number): this {
     const bytes = new Uint8Array(new Float64Array([value]).buffer);
