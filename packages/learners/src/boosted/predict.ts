@@ -3,7 +3,7 @@ import { type BinMapper, MISSING_BIN } from "../binning/bin-mapper.js";
 import { binOf, paddedEdges } from "./bin-search.js";
 import { BITSET_WORDS } from "./split-gain.js";
 import type { TreeEnsemble } from "./tree-ensemble.js";
-import { type WalkKernel, walkKernel } from "./walk-kernel.js";
+import { blockRowOffset, CATEGORICAL_FLAG, GROUP, type WalkKernel, walkKernel } from "./walk-kernel.js";
 
 /** Most features a model can have: a node addresses one of 2·features bin columns in 16 bits. */
 export const MAX_FEATURES = 32_767;
@@ -38,8 +38,6 @@ export interface CompiledTrees {
   /** Per bin column (2·features), 1 when some node reads it; other columns are not filled. */
   readonly columnUsed: Uint8Array;
 }
-
-const CATEGORICAL_FLAG = 1 << 24;
 
 export function compileTrees(trees: TreeEnsemble, mapper: BinMapper): CompiledTrees {
   const features = mapper.features.length;
@@ -147,11 +145,14 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
     if (column.kind === "categorical" && bins.kind === "categorical") {
       const binOfCode = bins.binOfCode;
       const codes = column.codes;
+      // The kernel's block holds rows in groups (see blockRowOffset), columns GROUP bytes apart.
+      const scale = kernel === undefined ? 1 : GROUP;
       for (let r = 0; r < count; r++) {
         const code = codes[rows[first + r]];
         const b = code >= 0 && code < binOfCode.length ? binOfCode[code] : MISSING_BIN;
-        block[r * stride + f] = b;
-        block[r * stride + features + f] = b + 1;
+        const at = kernel === undefined ? r * stride : blockRowOffset(r, stride);
+        block[at + scale * f] = b;
+        block[at + scale * (features + f)] = b + 1;
       }
     } else if (column.kind !== "categorical" && kernel !== undefined) {
       const values = column.values;

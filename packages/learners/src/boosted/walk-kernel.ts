@@ -53,21 +53,27 @@ export interface WalkedTrees {
 }
 
 const LAYOUT_LIMIT = 2 ** 31;
+const NODE_BYTES = 16;
+/** Threshold word of a categorical node: above every bin, so the numeric test sends it left. */
+const CATEGORICAL = 256;
 const cache: { compiled?: object } = {};
 let current: { memory: WasmMemory; exports: Record<string, WasmFunction>; bytes: number } | undefined;
 let loaded: { trees: WalkedTrees; rows: number; outputs: number; kernel: WalkKernel } | undefined;
 
 const align8 = (bytes: number) => Math.ceil(bytes / 8) * 8;
 
-/** The kernel loaded with `trees` for blocks of `rows` rows, or undefined when the model is too large. */
+/** Offset in the block of row r's bin column 0 (rows in groups of GROUP, column-major inside a group). */
+export const blockRowOffset = (r: number, stride: number) => (r & -GROUP) * stride + (r & (GROUP - 1));
+
+/** The kernel loaded with `trees` for blocks of `rows` rows (a multiple of GROUP), or undefined when the model is too large. */
 export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): WalkKernel | undefined {
   if (loaded !== undefined && loaded.trees === trees && loaded.rows === rows && loaded.outputs === outputs) return loaded.kernel;
+  if (rows % GROUP !== 0) throw new RangeError(`walk kernel: blocks of ${rows} rows, not a multiple of ${GROUP}`);
   const nodes = trees.node.length / 2;
   const stride = 2 * trees.features;
-  const values = 8 * nodes;
-  const sets = values + 8 * nodes;
-  const bits = sets + (trees.hasCategorical ? 8 * nodes : 0);
-  const roots = align8(bits + (trees.hasCategorical ? 4 * trees.bits.length : 0));
+  const values = NODE_BYTES * nodes;
+  const bits = values + 8 * nodes;
+  const roots = align8(bits + 4 * trees.bits.length);
   const depths = roots + 4 * trees.treeCount;
   const block = align8(depths + 4 * trees.treeCount);
   const raw = align8(block + rows * stride);
@@ -82,19 +88,19 @@ export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): W
   }
   const { memory, exports } = current;
   const buffer = memory.buffer;
-  const nodeWords = new Int32Array(buffer, 0, 2 * nodes);
+  const nodeWords = new Int32Array(buffer, 0, 4 * nodes);
   for (let n = 0; n < nodes; n++) {
-    nodeWords[2 * n] = trees.node[2 * n];
-    nodeWords[2 * n + 1] = 8 * trees.node[2 * n + 1];
+    const p = trees.node[2 * n];
+    const categorical = (p & CATEGORICAL_FLAG) !== 0;
+    nodeWords[4 * n] = GROUP * (p & 0xffff);
+    nodeWords[4 * n + 1] = categorical ? CATEGORICAL : (p >>> 16) & 0xff;
+    nodeWords[4 * n + 2] = NODE_BYTES * trees.node[2 * n + 1];
+    nodeWords[4 * n + 3] = categorical ? bits + 4 * BITSET_WORDS * trees.set[n] : 0;
   }
   new Float64Array(buffer, values, nodes).set(trees.value);
-  if (trees.hasCategorical) {
-    const setAddress = new Int32Array(buffer, sets, 2 * nodes);
-    for (let n = 0; n < nodes; n++) setAddress[2 * n] = bits + 4 * BITSET_WORDS * Math.max(0, trees.set[n]);
-    new Uint32Array(buffer, bits, trees.bits.length).set(trees.bits);
-  }
+  new Uint32Array(buffer, bits, trees.bits.length).set(trees.bits);
   const rootAddress = new Int32Array(buffer, roots, trees.treeCount);
-  for (let t = 0; t < trees.treeCount; t++) rootAddress[t] = 8 * trees.root[t];
+  for (let t = 0; t < trees.treeCount; t++) rootAddress[t] = NODE_BYTES * trees.root[t];
   new Int32Array(buffer, depths, trees.treeCount).set(trees.depth);
   new Float64Array(buffer, edges, trees.edges.length).set(trees.edges);
   const features = trees.features;
@@ -104,17 +110,19 @@ export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): W
     block: new Uint8Array(buffer, block, rows * stride),
     raw: new Float64Array(buffer, raw, rows * outputs),
     column: new Float64Array(buffer, column, rows),
-    binColumn: (f, count) => exports.bin(edges + 2048 * f, column, count, block + f, stride, features),
-    walk: (count) => run(treeCount, roots, depths, values, block, count, stride, raw, outputs, sets),
+    binColumn: (f, count) => exports.bin(edges + 2048 * f, column, count, block + GROUP * f, stride, GROUP * features),
+    walk: (count) => run(treeCount, roots, depths, values, block, count, stride, raw, outputs),
   };
   loaded = { trees, rows, outputs, kernel };
   return kernel;
 }
 
-/** Rows walked together. */
-const GROUP = 8;
+/** Rows walked together; the block holds them in groups of this many, column-major inside a group. */
+export const GROUP = 8;
+/** Bit 24 of a packed node word of CompiledTrees: a categorical node. */
+export const CATEGORICAL_FLAG = 1 << 24;
 
-// Parameters of both functions.
+// Parameters of both walk functions.
 const TREES = 0;
 const ROOTS = 1;
 const DEPTHS = 2;
@@ -124,26 +132,24 @@ const COUNT = 5;
 const STRIDE = 6;
 const RAW = 7;
 const OUTPUTS = 8;
-const SETS = 9;
-const PARAMS = 10;
+const PARAMS = 9;
 // i32 locals.
-const t = 10;
-const root = 11;
-const depth = 12;
-const s = 13;
-const r = 14;
-const out = 15;
-const rowBytes = 16;
-const o = 17;
-const p = 18;
-const right = 19;
-const b = 20;
-const row = 21;
-const node = (k: number) => 22 + k;
-const base = (k: number) => 22 + GROUP + k;
-const LOCALS = 22 + 2 * GROUP - PARAMS;
+const t = 9;
+const root = 10;
+const depth = 11;
+const s = 12;
+const r = 13;
+const out = 14;
+const rowBytes = 15;
+const o = 16;
+const right = 17;
+const b = 18;
+const row = 19;
+const group = 20;
+const node = (k: number) => 21 + k;
+const LOCALS = 21 + GROUP - PARAMS;
 
-/** walk / walkCategorical(trees, roots, depths, values, bins, count, stride, raw, outputs, sets). */
+/** walk / walkCategorical(trees, roots, depths, values, bins, count, stride, raw, outputs), and bin. */
 export function walkModule(): Uint8Array {
   const spec = (exportName: string, categorical: boolean) => ({
     exportName,
@@ -156,9 +162,10 @@ export function walkModule(): Uint8Array {
 }
 
 /**
- * bin(edges, values, count, bins, stride, features): for each value v, b = the number of the
- * feature's edges below v (eight halvings), 255 for NaN; bins[r·stride] = b and
- * bins[r·stride + features] = b + 1 (a byte: 255 + 1 wraps to 0).
+ * bin(edges, values, count, bins, stride, features): for each value v of row r, b = the number
+ * of the feature's edges below v (eight halvings), 255 for NaN; the byte of row r at `bins` gets
+ * b and the one `features` further b + 1 (255 + 1 wraps to 0). `bins` and `features` are
+ * offsets in the grouped block layout (column · GROUP).
  */
 function binFunction() {
   const EDGES = 0;
@@ -167,12 +174,14 @@ function binFunction() {
   const OUT = 3;
   const ROW_STRIDE = 4;
   const FEATURES = 5;
-  const offset = 6;
-  const v = 7;
+  const at = 6;
+  const offset = 7;
+  const row = 8;
+  const v = 9;
   const f = new FunctionBody();
   f.block(() =>
     f.loop(() => {
-      f.localGet(ROWS).i32Eqz().brIf(1);
+      f.localGet(row).localGet(ROWS).i32GeU().brIf(1);
       f.localGet(VALUES_AT).f64Load(0).localSet(v);
       // offset = 8·b, built from the top bit down: offset += (edges[b + 2^s − 1] < v) << (s + 3).
       f.i32Const(0).localSet(offset);
@@ -180,49 +189,56 @@ function binFunction() {
         f.localGet(EDGES).localGet(offset).i32Add().f64Load(8 * ((1 << bit) - 1)).localGet(v).f64Lt();
         f.i32Const(bit + 3).i32Shl().localGet(offset).i32Add().localSet(offset);
       }
-      f.localGet(OUT);
+      // at = bins + (row & −GROUP)·stride + (row & (GROUP − 1)).
+      f.localGet(OUT).localGet(row).i32Const(-GROUP).i32And().localGet(ROW_STRIDE).i32Mul().i32Add();
+      f.localGet(row).i32Const(GROUP - 1).i32And().i32Add().localTee(at);
       f.i32Const(255).localGet(offset).i32Const(3).i32ShrU().localGet(v).localGet(v).f64Ne().select().localTee(offset);
       f.i32Store8(0);
-      f.localGet(OUT).localGet(FEATURES).i32Add().localGet(offset).i32Const(1).i32Add().i32Store8(0);
-      f.localGet(OUT).localGet(ROW_STRIDE).i32Add().localSet(OUT);
+      f.localGet(at).localGet(FEATURES).i32Add().localGet(offset).i32Const(1).i32Add().i32Store8(0);
       f.localGet(VALUES_AT).i32Const(8).i32Add().localSet(VALUES_AT);
-      f.localGet(ROWS).i32Const(1).i32Sub().localSet(ROWS);
+      f.localGet(row).i32Const(1).i32Add().localSet(row);
       f.br(0);
     }),
   );
-  return { exportName: "bin", params: new Array<number>(6).fill(I32) as (typeof I32)[], results: [], locals: [I32, F64] as (typeof I32 | typeof F64)[], body: f };
+  return { exportName: "bin", params: new Array<number>(6).fill(I32) as (typeof I32)[], results: [], locals: [I32, I32, I32, F64] as (typeof I32 | typeof F64)[], body: f };
 }
 
-/** One step of row k: node(k) moves to its left child, or the right one (8 bytes further). */
+/**
+ * One step of lane k of the group at `group`: node(k) moves to its left child, or to the right
+ * one (NODE_BYTES further) when the row's bin is above the threshold (or outside the set).
+ */
 function step(f: FunctionBody, k: number, categorical: boolean): void {
   const n = node(k);
   if (!categorical) {
-    // left + ((threshold − bin) >>> 31) · 8
+    // left + ((threshold − bin) >>> 31) · NODE_BYTES
+    f.localGet(n).i32Load(8);
     f.localGet(n).i32Load(4);
-    f.localGet(n).i32Load8U(2);
-    f.localGet(base(k)).localGet(n).i32Load16U(0).i32Add().i32Load8U(0);
-    f.i32Sub().i32Const(31).i32ShrU().i32Const(3).i32Shl().i32Add().localSet(n);
+    f.localGet(group).localGet(n).i32Load(0).i32Add().i32Load8U(k);
+    f.i32Sub().i32Const(31).i32ShrU().i32Const(4).i32Shl().i32Add().localSet(n);
     return;
   }
-  f.localGet(n).i32Load(0).localSet(p);
-  f.localGet(base(k)).localGet(p).i32Const(0xffff).i32And().i32Add().i32Load8U(0).localSet(b);
-  f.localGet(p).i32Const(16).i32ShrU().localGet(b).i32Sub().i32Const(31).i32ShrU().localSet(right);
-  f.localGet(p).i32Const(24).i32ShrU();
+  f.localGet(group).localGet(n).i32Load(0).i32Add().i32Load8U(k).localSet(b);
+  f.localGet(n).i32Load(4).localGet(b).i32Sub().i32Const(31).i32ShrU().localSet(right);
+  f.localGet(n).i32Load(12);
   f.if(() => {
     // Right when the bin is outside the set: 1 ^ (word[b >>> 5] >>> (b & 31)) & 1.
-    f.localGet(SETS).localGet(n).i32Add().i32Load(0).localGet(b).i32Const(5).i32ShrU().i32Const(2).i32Shl().i32Add().i32Load(0);
+    f.localGet(n).i32Load(12).localGet(b).i32Const(5).i32ShrU().i32Const(2).i32Shl().i32Add().i32Load(0);
     f.localGet(b).i32ShrU().i32Const(1).i32And().i32Const(1).i32Xor().localSet(right);
   });
-  f.localGet(n).i32Load(4).localGet(right).i32Const(3).i32Shl().i32Add().localSet(n);
+  f.localGet(n).i32Load(8).localGet(right).i32Const(4).i32Shl().i32Add().localSet(n);
 }
 
-/** Walks rows r.. in groups of `size` while a whole group remains, each row `depth` steps, and adds the leaves' values. */
+/**
+ * Walks rows r.. in groups of `size` (GROUP, or 1 for the rest) while a whole group remains,
+ * each row `depth` steps, and adds the leaves' values.
+ */
 function walkGroups(f: FunctionBody, size: number, categorical: boolean): void {
   f.block(() =>
     f.loop(() => {
       f.localGet(COUNT).localGet(r).i32Const(size).i32Add().i32LtU().brIf(1);
-      f.localGet(BINS).localGet(r).localGet(STRIDE).i32Mul().i32Add().localSet(base(0));
-      for (let k = 1; k < size; k++) f.localGet(base(k - 1)).localGet(STRIDE).i32Add().localSet(base(k));
+      // group = bins + (r & −GROUP)·stride + (r & (GROUP − 1)): lane 0 of a whole group, or the row's lane.
+      f.localGet(BINS).localGet(r).i32Const(-GROUP).i32And().localGet(STRIDE).i32Mul().i32Add();
+      f.localGet(r).i32Const(GROUP - 1).i32And().i32Add().localSet(group);
       for (let k = 0; k < size; k++) f.localGet(root).localSet(node(k));
       f.localGet(depth).localSet(s);
       f.block(() =>
@@ -235,7 +251,8 @@ function walkGroups(f: FunctionBody, size: number, categorical: boolean): void {
       );
       f.localGet(out).localGet(r).localGet(rowBytes).i32Mul().i32Add().localSet(row);
       for (let k = 0; k < size; k++) {
-        f.localGet(row).localGet(row).f64Load(0).localGet(VALUES).localGet(node(k)).i32Add().f64Load(0).f64Add().f64Store(0);
+        // Node n's value is at values + 8·n = values + address / 2.
+        f.localGet(row).localGet(row).f64Load(0).localGet(VALUES).localGet(node(k)).i32Const(1).i32ShrU().i32Add().f64Load(0).f64Add().f64Store(0);
         if (k + 1 < size) f.localGet(row).localGet(rowBytes).i32Add().localSet(row);
       }
       f.localGet(r).i32Const(size).i32Add().localSet(r);
