@@ -54,8 +54,8 @@ export interface WalkedTrees {
 
 const LAYOUT_LIMIT = 2 ** 31;
 const NODE_BYTES = 16;
-/** Threshold word of a categorical node: above every bin, so the numeric test sends it left. */
-const CATEGORICAL = 256;
+/** Sign bit of a categorical node's second word (the address of its set). */
+const CATEGORICAL = 1 << 31;
 const cache: { compiled?: object } = {};
 let current: { memory: WasmMemory; exports: Record<string, WasmFunction>; bytes: number } | undefined;
 let loaded: { trees: WalkedTrees; rows: number; outputs: number; kernel: WalkKernel } | undefined;
@@ -92,10 +92,11 @@ export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): W
   for (let n = 0; n < nodes; n++) {
     const p = trees.node[2 * n];
     const categorical = (p & CATEGORICAL_FLAG) !== 0;
+    const left = trees.node[2 * n + 1];
     nodeWords[4 * n] = GROUP * (p & 0xffff);
-    nodeWords[4 * n + 1] = categorical ? CATEGORICAL : (p >>> 16) & 0xff;
-    nodeWords[4 * n + 2] = NODE_BYTES * trees.node[2 * n + 1];
-    nodeWords[4 * n + 3] = categorical ? bits + 4 * BITSET_WORDS * trees.set[n] : 0;
+    nodeWords[4 * n + 1] = categorical ? (bits + 4 * BITSET_WORDS * trees.set[n]) | CATEGORICAL : (p >>> 16) & 0xff;
+    nodeWords[4 * n + 2] = NODE_BYTES * left;
+    nodeWords[4 * n + 3] = NODE_BYTES * (left === n ? n : left + 1);
   }
   new Float64Array(buffer, values, nodes).set(trees.value);
   new Uint32Array(buffer, bits, trees.bits.length).set(trees.bits);
@@ -146,8 +147,9 @@ const right = 17;
 const b = 18;
 const row = 19;
 const group = 20;
-const node = (k: number) => 21 + k;
-const LOCALS = 21 + GROUP - PARAMS;
+const word = 21;
+const node = (k: number) => 22 + k;
+const LOCALS = 22 + GROUP - PARAMS;
 
 /** walk / walkCategorical(trees, roots, depths, values, bins, count, stride, raw, outputs), and bin. */
 export function walkModule(): Uint8Array {
@@ -210,22 +212,22 @@ function binFunction() {
 function step(f: FunctionBody, k: number, categorical: boolean): void {
   const n = node(k);
   if (!categorical) {
-    // left + ((threshold − bin) >>> 31) · NODE_BYTES
-    f.localGet(n).i32Load(8);
+    // The child's address is the third word (left) or the fourth (right): n + 8 + ((threshold − bin) >>> 31) · 4.
+    f.localGet(n);
     f.localGet(n).i32Load(4);
     f.localGet(group).localGet(n).i32Load(0).i32Add().i32Load8U(k);
-    f.i32Sub().i32Const(31).i32ShrU().i32Const(4).i32Shl().i32Add().localSet(n);
+    f.i32Sub().i32Const(31).i32ShrU().i32Const(2).i32Shl().i32Add().i32Load(8).localSet(n);
     return;
   }
   f.localGet(group).localGet(n).i32Load(0).i32Add().i32Load8U(k).localSet(b);
-  f.localGet(n).i32Load(4).localGet(b).i32Sub().i32Const(31).i32ShrU().localSet(right);
-  f.localGet(n).i32Load(12);
+  f.localGet(n).i32Load(4).localTee(word).localGet(b).i32Sub().i32Const(31).i32ShrU().localSet(right);
+  f.localGet(word).i32Const(31).i32ShrU();
   f.if(() => {
-    // Right when the bin is outside the set: 1 ^ (word[b >>> 5] >>> (b & 31)) & 1.
-    f.localGet(n).i32Load(12).localGet(b).i32Const(5).i32ShrU().i32Const(2).i32Shl().i32Add().i32Load(0);
+    // Right when the bin is outside the set: 1 ^ (set[b >>> 5] >>> (b & 31)) & 1.
+    f.localGet(word).i32Const(0x7fffffff).i32And().localGet(b).i32Const(5).i32ShrU().i32Const(2).i32Shl().i32Add().i32Load(0);
     f.localGet(b).i32ShrU().i32Const(1).i32And().i32Const(1).i32Xor().localSet(right);
   });
-  f.localGet(n).i32Load(8).localGet(right).i32Const(4).i32Shl().i32Add().localSet(n);
+  f.localGet(n).localGet(right).i32Const(2).i32Shl().i32Add().i32Load(8).localSet(n);
 }
 
 /**
