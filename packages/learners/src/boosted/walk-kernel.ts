@@ -119,7 +119,7 @@ export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): W
 }
 
 /** Rows walked together; the block holds them in groups of this many, column-major inside a group. */
-export const GROUP = 8;
+export const GROUP = 16;
 /** Bit 24 of a packed node word of CompiledTrees: a categorical node. */
 export const CATEGORICAL_FLAG = 1 << 24;
 
@@ -163,11 +163,15 @@ export function walkModule(): Uint8Array {
   return encodeModule([spec("walk", false), spec("walkCategorical", true), binFunction()]);
 }
 
+/** Values binned together by `bin` (their searches overlap). */
+const BIN_LANES = 8;
+
 /**
  * bin(edges, values, count, bins, stride, features): for each value v of row r, b = the number
  * of the feature's edges below v (eight halvings), 255 for NaN; the byte of row r at `bins` gets
  * b and the one `features` further b + 1 (255 + 1 wraps to 0). `bins` and `features` are
- * offsets in the grouped block layout (column · GROUP).
+ * offsets in the grouped block layout (column · GROUP). Rows go BIN_LANES at a time, up to
+ * `count` rounded up (the block and the values have room: GROUP is a multiple of BIN_LANES).
  */
 function binFunction() {
   const EDGES = 0;
@@ -177,32 +181,45 @@ function binFunction() {
   const ROW_STRIDE = 4;
   const FEATURES = 5;
   const at = 6;
-  const offset = 7;
-  const row = 8;
-  const v = 9;
+  const row = 7;
+  const offset = (k: number) => 8 + k;
+  const v = (k: number) => 8 + BIN_LANES + k;
   const f = new FunctionBody();
   f.block(() =>
     f.loop(() => {
       f.localGet(row).localGet(ROWS).i32GeU().brIf(1);
-      f.localGet(VALUES_AT).f64Load(0).localSet(v);
-      // offset = 8·b, built from the top bit down: offset += (edges[b + 2^s − 1] < v) << (s + 3).
-      f.i32Const(0).localSet(offset);
-      for (let bit = 7; bit >= 0; bit--) {
-        f.localGet(EDGES).localGet(offset).i32Add().f64Load(8 * ((1 << bit) - 1)).localGet(v).f64Lt();
-        f.i32Const(bit + 3).i32Shl().localGet(offset).i32Add().localSet(offset);
+      for (let k = 0; k < BIN_LANES; k++) {
+        f.localGet(VALUES_AT).f64Load(8 * k).localSet(v(k));
+        f.i32Const(0).localSet(offset(k));
       }
-      // at = bins + (row & −GROUP)·stride + (row & (GROUP − 1)).
+      // offset = 8·b, built from the top bit down: offset += (edges[b + 2^s − 1] < v) << (s + 3).
+      for (let bit = 7; bit >= 0; bit--) {
+        for (let k = 0; k < BIN_LANES; k++) {
+          f.localGet(EDGES).localGet(offset(k)).i32Add().f64Load(8 * ((1 << bit) - 1)).localGet(v(k)).f64Lt();
+          f.i32Const(bit + 3).i32Shl().localGet(offset(k)).i32Add().localSet(offset(k));
+        }
+      }
+      // at = bins + (row & −GROUP)·stride + (row & (GROUP − 1)); the lanes' rows follow in the group.
       f.localGet(OUT).localGet(row).i32Const(-GROUP).i32And().localGet(ROW_STRIDE).i32Mul().i32Add();
-      f.localGet(row).i32Const(GROUP - 1).i32And().i32Add().localTee(at);
-      f.i32Const(255).localGet(offset).i32Const(3).i32ShrU().localGet(v).localGet(v).f64Ne().select().localTee(offset);
-      f.i32Store8(0);
-      f.localGet(at).localGet(FEATURES).i32Add().localGet(offset).i32Const(1).i32Add().i32Store8(0);
-      f.localGet(VALUES_AT).i32Const(8).i32Add().localSet(VALUES_AT);
-      f.localGet(row).i32Const(1).i32Add().localSet(row);
+      f.localGet(row).i32Const(GROUP - 1).i32And().i32Add().localSet(at);
+      for (let k = 0; k < BIN_LANES; k++) {
+        f.localGet(at);
+        f.i32Const(255).localGet(offset(k)).i32Const(3).i32ShrU().localGet(v(k)).localGet(v(k)).f64Ne().select().localTee(offset(k));
+        f.i32Store8(k);
+        f.localGet(at).localGet(FEATURES).i32Add().localGet(offset(k)).i32Const(1).i32Add().i32Store8(k);
+      }
+      f.localGet(VALUES_AT).i32Const(8 * BIN_LANES).i32Add().localSet(VALUES_AT);
+      f.localGet(row).i32Const(BIN_LANES).i32Add().localSet(row);
       f.br(0);
     }),
   );
-  return { exportName: "bin", params: new Array<number>(6).fill(I32) as (typeof I32)[], results: [], locals: [I32, I32, I32, F64] as (typeof I32 | typeof F64)[], body: f };
+  return {
+    exportName: "bin",
+    params: new Array<number>(6).fill(I32) as (typeof I32)[],
+    results: [],
+    locals: [...new Array<number>(2 + BIN_LANES).fill(I32), ...new Array<number>(BIN_LANES).fill(F64)] as (typeof I32 | typeof F64)[],
+    body: f,
+  };
 }
 
 /**
