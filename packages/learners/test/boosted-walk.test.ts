@@ -95,7 +95,10 @@ describe("boosted prediction: WebAssembly walk", () => {
       const rows = Uint32Array.from({ length: 1237 }, (_, i) => (i * 389) % 1237);
       const wasm = scores(model, test, rows, "webassembly");
       expectSameBits(wasm, scores(model, test, rows, "javascript"));
-      for (const count of [0, 1, 7, 9]) expectSameBits(scores(model, test, rows.subarray(0, count), "webassembly"), wasm.subarray(0, count * model.outputs));
+      // Consecutive rows (copied into the kernel a column at a time), from an offset.
+      const range = Uint32Array.from({ length: 1000 }, (_, i) => 200 + i);
+      expectSameBits(scores(model, test, range, "webassembly"), scores(model, test, range, "javascript"));
+      for (const count of [0, 1, 7, 9, 17]) expectSameBits(scores(model, test, rows.subarray(0, count), "webassembly"), wasm.subarray(0, count * model.outputs));
     });
   }
 

@@ -137,6 +137,9 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
   const stride = 2 * features;
   const rows = view.rows;
   const edges = compiled.edges;
+  // Consecutive rows (the usual case) are copied into the kernel with one typed-array copy per column.
+  let consecutive = kernel !== undefined;
+  for (let r = 1; consecutive && r < count; r++) consecutive = rows[first + r] === rows[first] + r;
   for (let f = 0; f < features; f++) {
     const column = view.columns[f];
     const bins = mapper.features[f];
@@ -157,7 +160,8 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
     } else if (column.kind !== "categorical" && kernel !== undefined) {
       const values = column.values;
       const into = kernel.column;
-      for (let r = 0; r < count; r++) into[r] = values[rows[first + r]];
+      if (consecutive) into.set(values.subarray(rows[first], rows[first] + count));
+      else for (let r = 0; r < count; r++) into[r] = values[rows[first + r]];
       kernel.binColumn(f, count);
     } else if (column.kind !== "categorical") {
       const values = column.values;
