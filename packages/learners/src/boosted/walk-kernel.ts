@@ -1,25 +1,30 @@
 import { encodeModule, F64, FunctionBody, I32, instantiate, type WasmFunction, type WasmMemory } from "../wasm/encoder.js";
+import type { CompiledTrees } from "./predict.js";
 import { BITSET_WORDS } from "./split-gain.js";
 
 /**
- * The tree walk of prediction as a WebAssembly kernel: the same steps as the JavaScript walk of
- * predict.ts (same node encoding, same two bin encodings per row, trees outer and rows inner,
- * eight rows walked together), but each step is a handful of plain i32 instructions: loads need
- * no bounds check of their own (the engine's guard pages cover the 32-bit address space) and
- * additions no overflow check. Leaf values are added to each row's score in tree order, exactly as
- * the JavaScript walk adds them, so the scores are the same bits.
+ * The tree walk of prediction as a WebAssembly kernel: the same walk as the JavaScript one of
+ * predict.ts (same tests, same two bin encodings per row, every row taking exactly depth[t]
+ * steps in tree t, trees outer and rows inner), but each step is nine plain i32 instructions:
+ * loads need no bounds check of their own (the engine's guard pages cover the 32-bit address
+ * space) and additions no overflow check. Sixteen rows are walked together so their dependent
+ * load chains overlap. Leaf values are added to each row's score in tree order, exactly as the
+ * JavaScript walk adds them, so the scores are the same bits. Numeric columns are binned here
+ * too, with the eight halvings of bin-search.ts over the same padded edges, eight values at once.
  *
- * Layout of the kernel memory for a loaded model of N nodes, T trees and S category sets (byte
- * addresses; a node's address is 8·n):
- * - nodes at 0, 8 bytes each: the packed word of CompiledTrees.node (column in bytes 0-1,
- *   threshold in byte 2, categorical flag in byte 3), then the left child's address;
- * - leaf values (f64) at `values`: node n's at values + 8·n;
- * - for models with categorical nodes, at `sets` + 8·n the address of node n's 256-bit set
- *   (for other nodes the first set's, never read), and the sets themselves at `bits`;
+ * Layout of the kernel memory for a loaded model (byte addresses; node n is at 16·n):
+ * - nodes at 0, four i32 each: the bin column times GROUP; the threshold (or, for a categorical
+ *   node, the address of its 256-bit set with the sign bit set); the left child's address; the
+ *   right child's address (a leaf: threshold 255 and both children itself);
+ * - leaf values (f64) at `values`: node n's at values + 8·n, i.e. values + address / 2;
+ * - the category sets at `bits` (with each node's missing direction in bit 255, as in predict.ts);
  * - the root address and the depth of each tree (i32) at `roots` and `depths`;
- * - one block of binned rows at `block` and its rows' scores (f64, `outputs` per row) at `raw`;
- * - the padded bin edges (f64, 256 per feature) at `edges`, and one column of the block's
- *   values (f64) at `column`, binned there with the eight halvings of bin-search.ts.
+ * - one block of binned rows at `block`, in groups of GROUP rows, each group column-major
+ *   (row r's byte of column c at (r − r mod GROUP)·stride + c·GROUP + r mod GROUP), so one base
+ *   address serves a group and each row's byte is a constant offset from it;
+ * - the block's scores (f64, `outputs` per row) at `raw`;
+ * - the padded bin edges (f64, 256 per feature) at `edges` and one column of the block's values
+ *   (f64) at `column`.
  *
  * One kernel (and memory) serves the process; it holds the last model it walked and copies the
  * next one in when another model predicts. A model whose layout would not fit in 2 GiB is walked
@@ -38,19 +43,8 @@ export interface WalkKernel {
   walk(count: number): void;
 }
 
-export interface WalkedTrees {
-  readonly treeCount: number;
-  readonly features: number;
-  readonly root: Int32Array;
-  readonly depth: Int32Array;
-  readonly node: Int32Array;
-  readonly value: Float64Array;
-  readonly set: Int32Array;
-  readonly bits: Uint32Array;
-  readonly hasCategorical: boolean;
-  /** Per numeric feature, its upper edges padded with +∞ to 256 (see bin-search.ts). */
-  readonly edges: Float64Array;
-}
+/** What the kernel reads of a compiled model. */
+type WalkedTrees = Pick<CompiledTrees, "treeCount" | "features" | "root" | "depth" | "node" | "value" | "set" | "bits" | "hasCategorical" | "edges">;
 
 const LAYOUT_LIMIT = 2 ** 31;
 const NODE_BYTES = 16;
