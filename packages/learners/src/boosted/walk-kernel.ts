@@ -27,8 +27,8 @@ import { BITSET_WORDS } from "./split-gain.js";
  *   (f64) at `column`.
  *
  * One kernel (and memory) serves the process; it holds the last model it walked and copies the
- * next one in when another model predicts. A model whose layout would not fit in 2 GiB is walked
- * in JavaScript.
+ * next one in when another model predicts. A model whose layout would not fit in 2 GiB, or whose
+ * memory the engine cannot reserve, is walked in JavaScript.
  */
 export interface WalkKernel {
   /** The block of binned rows (rows × 2·features bytes) to be filled by the caller. */
@@ -78,7 +78,13 @@ export function walkKernel(trees: WalkedTrees, rows: number, outputs: number): W
   if (current === undefined || current.bytes < total) {
     // Room to spare, so that the next few models rarely need a new memory.
     const bytes = Math.min(LAYOUT_LIMIT, 2 * total);
-    current = { ...instantiate(walkModule, cache, bytes), bytes };
+    try {
+      current = { ...instantiate(walkModule, cache, bytes), bytes };
+    } catch (error) {
+      // A memory the engine cannot reserve: this model is walked in JavaScript.
+      if (error instanceof RangeError) return undefined;
+      throw error;
+    }
   }
   const { memory, exports } = current;
   const buffer = memory.buffer;
