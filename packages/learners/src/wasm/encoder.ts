@@ -99,9 +99,6 @@ export class FunctionBody {
   i32Load8U(offset: number): this {
     return this.op(0x2d, ...this.memarg(0, offset));
   }
-  i32Load16U(offset: number): this {
-    return this.op(0x2f, ...this.memarg(1, offset));
-  }
   i32Store(offset: number): this {
     return this.op(0x36, ...this.memarg(2, offset));
   }
