@@ -3,6 +3,7 @@ import { type BinMapper, MISSING_BIN } from "../binning/bin-mapper.js";
 import { binOf, paddedEdges } from "./bin-search.js";
 import { BITSET_WORDS } from "./split-gain.js";
 import type { TreeEnsemble } from "./tree-ensemble.js";
+import { blockRowOffset, CATEGORICAL_FLAG, GROUP, type WalkKernel, walkKernel } from "./walk-kernel.js";
 
 /** Most features a model can have: a node addresses one of 2·features bin columns in 16 bits. */
 export const MAX_FEATURES = 32_767;
@@ -37,8 +38,6 @@ export interface CompiledTrees {
   /** Per bin column (2·features), 1 when some node reads it; other columns are not filled. */
   readonly columnUsed: Uint8Array;
 }
-
-const CATEGORICAL_FLAG = 1 << 24;
 
 export function compileTrees(trees: TreeEnsemble, mapper: BinMapper): CompiledTrees {
   const features = mapper.features.length;
@@ -91,9 +90,18 @@ const BLOCK_ROWS = 512;
 /**
  * Adds every tree's leaf value to `raw` (row-major, `outputs` per row, pre-filled with the
  * initial scores). Rows are binned with the training mapper a block at a time, then trees
- * outer, rows inner, eight rows walked together so their independent steps overlap.
+ * outer, rows inner, eight rows walked together so their independent steps overlap. The walk
+ * runs in the WebAssembly kernel of walk-kernel.ts (same steps, same order of additions, same
+ * scores); `engine: "javascript"` (or a model too large for the kernel) walks in JavaScript.
  */
-export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: TableView, outputs: number, raw: Float64Array): void {
+export function addTreeScores(
+  compiled: CompiledTrees,
+  mapper: BinMapper,
+  view: TableView,
+  outputs: number,
+  raw: Float64Array,
+  engine: "webassembly" | "javascript" = "webassembly",
+): void {
   const n = view.rows.length;
   const features = compiled.features;
   mapper.features.forEach((bins, f) => {
@@ -102,6 +110,18 @@ export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: 
       throw new TypeError(`feature ${column.name}: fitted as ${bins.kind}, given ${column.kind === "categorical" ? "categorical" : "numeric"}`);
     }
   });
+  const kernel = engine === "webassembly" && n > 0 ? walkKernel(compiled, BLOCK_ROWS, outputs) : undefined;
+  if (kernel !== undefined) {
+    for (let first = 0; first < n; first += BLOCK_ROWS) {
+      const count = Math.min(BLOCK_ROWS, n - first);
+      binBlock(compiled, mapper, view, first, count, kernel.block, kernel);
+      const scores = raw.subarray(first * outputs, (first + count) * outputs);
+      kernel.raw.set(scores);
+      kernel.walk(count);
+      scores.set(kernel.raw.subarray(0, count * outputs));
+    }
+    return;
+  }
   const block = new Uint8Array(BLOCK_ROWS * 2 * features);
   for (let first = 0; first < n; first += BLOCK_ROWS) {
     const count = Math.min(BLOCK_ROWS, n - first);
@@ -112,11 +132,14 @@ export function addTreeScores(compiled: CompiledTrees, mapper: BinMapper, view: 
 }
 
 /** Bins rows first..first+count-1 of the view into the block (both encodings, see CompiledTrees). */
-function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, first: number, count: number, block: Uint8Array): void {
+function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, first: number, count: number, block: Uint8Array, kernel?: WalkKernel): void {
   const features = compiled.features;
   const stride = 2 * features;
   const rows = view.rows;
   const edges = compiled.edges;
+  // Consecutive rows (the usual case) are copied into the kernel with one typed-array copy per column.
+  let consecutive = kernel !== undefined;
+  for (let r = 1; consecutive && r < count; r++) consecutive = rows[first + r] === rows[first] + r;
   for (let f = 0; f < features; f++) {
     const column = view.columns[f];
     const bins = mapper.features[f];
@@ -125,12 +148,21 @@ function binBlock(compiled: CompiledTrees, mapper: BinMapper, view: TableView, f
     if (column.kind === "categorical" && bins.kind === "categorical") {
       const binOfCode = bins.binOfCode;
       const codes = column.codes;
+      // The kernel's block holds rows in groups (see blockRowOffset), columns GROUP bytes apart.
+      const scale = kernel === undefined ? 1 : GROUP;
       for (let r = 0; r < count; r++) {
         const code = codes[rows[first + r]];
         const b = code >= 0 && code < binOfCode.length ? binOfCode[code] : MISSING_BIN;
-        block[r * stride + f] = b;
-        block[r * stride + features + f] = b + 1;
+        const at = kernel === undefined ? r * stride : blockRowOffset(r, stride);
+        block[at + scale * f] = b;
+        block[at + scale * (features + f)] = b + 1;
       }
+    } else if (column.kind !== "categorical" && kernel !== undefined) {
+      const values = column.values;
+      const into = kernel.column;
+      if (consecutive) into.set(values.subarray(rows[first], rows[first] + count));
+      else for (let r = 0; r < count; r++) into[r] = values[rows[first + r]];
+      kernel.binColumn(f, count);
     } else if (column.kind !== "categorical") {
       const values = column.values;
       const e = 256 * f;

@@ -102,6 +102,9 @@ export class FunctionBody {
   i32Store(offset: number): this {
     return this.op(0x36, ...this.memarg(2, offset));
   }
+  i32Store8(offset: number): this {
+    return this.op(0x3a, ...this.memarg(0, offset));
+  }
   f64Store(offset: number): this {
     return this.op(0x39, ...this.memarg(3, offset));
   }
@@ -131,6 +134,12 @@ export class FunctionBody {
   i32Eq(): this {
     return this.op(0x46);
   }
+  f64Lt(): this {
+    return this.op(0x63);
+  }
+  f64Ne(): this {
+    return this.op(0x62);
+  }
   f64Const(value: number): this {
     const bytes = new Uint8Array(new Float64Array([value]).buffer);
     return this.op(0x44, ...bytes);
@@ -148,8 +157,17 @@ export class FunctionBody {
   i32Mul(): this {
     return this.op(0x6c);
   }
+  i32And(): this {
+    return this.op(0x71);
+  }
   i32Or(): this {
     return this.op(0x72);
+  }
+  i32Xor(): this {
+    return this.op(0x73);
+  }
+  i32ShrU(): this {
+    return this.op(0x76);
   }
   i32Shl(): this {
     return this.op(0x74);
