@@ -21,10 +21,8 @@ import { tmpdir } from "node:os";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { parseArgs } from "node:util";
-import { stringify } from "csv-stringify/sync";
 import { Redis } from "ioredis";
-import { generateTurbineRows, TURBINE_COLUMNS } from "../packages/cli/src/demo/turbine-data.js";
-import { RunStore } from "../packages/store/src/index.js";
+import { storedFolds, writeSmallTurbines } from "../test/e2e/helpers.js";
 import { freePort, startBenchWorkers } from "./lib/redis-workers.js";
 
 const here = dirname(fileURLToPath(import.meta.url));
@@ -34,7 +32,7 @@ const trials = Number(values.trials);
 const FOLDS = 3;
 
 const dir = mkdtempSync(join(tmpdir(), "nightshift-load-"));
-writeFileSync(join(dir, "turbines.csv"), stringify(generateTurbineRows({ turbines: 400, weeks: 50, seed: 11 }), { header: true, columns: [...TURBINE_COLUMNS] }));
+writeSmallTurbines(dir, 400, 50);
 writeFileSync(
   join(dir, "load.plan.yaml"),
   `name: load
@@ -55,19 +53,6 @@ function rssKiB(pid: number): number | undefined {
     return match ? Number(match[1]) : undefined;
   } catch {
     return undefined;
-  }
-}
-
-function committed(): number {
-  try {
-    const store = RunStore.open(runDir, { readonly: true });
-    try {
-      return store.foldScores().length;
-    } finally {
-      store.close();
-    }
-  } catch {
-    return 0;
   }
 }
 
@@ -118,7 +103,7 @@ while (!done) {
   const now = performance.now();
   // Reading the store is cheap but not free: once a second.
   if (now - lastJobsCheck > 1000) {
-    jobs = committed();
+    jobs = storedFolds(runDir);
     lastJobsCheck = now;
   }
   if (rss !== undefined) samples.push({ at: (now - started) / 1000, jobs, rss, redis });
@@ -126,7 +111,7 @@ while (!done) {
 }
 const code = await exited;
 const seconds = (performance.now() - started) / 1000;
-const finalJobs = committed();
+const finalJobs = storedFolds(runDir);
 const redisAfter = redisSide ? await redisSide.usedMemory() : Number.NaN;
 redisSide?.stop();
 const mb = (kib: number) => (kib / 1024).toFixed(1);

@@ -1,12 +1,13 @@
 import { type ChildProcess, spawn, spawnSync } from "node:child_process";
 import { mkdtempSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
-import { join, resolve } from "node:path";
+import { join } from "node:path";
+import { fileURLToPath } from "node:url";
 import { RunStore } from "@nightshift/store";
 import { stringify } from "csv-stringify/sync";
 import { generateTurbineRows, TURBINE_COLUMNS } from "../../packages/cli/src/demo/turbine-data.js";
 
-export const CLI = resolve(__dirname, "../../packages/cli/bin/nightshift.js");
+export const CLI = fileURLToPath(new URL("../../packages/cli/bin/nightshift.js", import.meta.url));
 
 export function tempDir(prefix: string): string {
   return mkdtempSync(join(tmpdir(), `nightshift-${prefix}-`));
